@@ -1,0 +1,479 @@
+"""Constitutional isomers of a molecular formula, streamed without repeats.
+
+The formula is split into atom types: an element in one valence state with a
+fixed number of hydrogens, hence a fixed number of bonds to heavy atoms.  For
+every way of sharing the hydrogens among the atoms, the compiled core
+(``rank/_enum.c``) grows connected multigraphs one atom at a time and keeps a
+prefix only when its bond matrix is the lexicographic maximum over relabellings
+(an orderly method: R. C. Read, Ann. Discrete Math. 1978, 2, 107).  No set of
+seen structures is kept, so memory stays bounded whatever the count.
+
+Two Kekule forms of one aromatic ring are one compound.  A structure that has an
+alternating cycle (a second Kekule form) is kept only when it is the form that
+RDKit gives back on reading its own canonical SMILES.
+
+>>> sorted(s.smiles for s in IsomerStream("C2H6O", complete=True))
+['CCO', 'COC']
+"""
+
+from __future__ import annotations
+
+import time
+from collections import Counter
+from collections.abc import Iterable, Iterator
+from dataclasses import dataclass
+from functools import lru_cache
+from itertools import product
+from typing import NamedTuple
+
+from rdkit import Chem, RDLogger
+
+from . import _enum
+from .errors import InputError
+from .formula import Formula, parse_formula
+from .tables import read_table
+
+RDLogger.DisableLog("rdApp.*")
+
+DEFAULT_CEILING = 2_000_000
+"""Largest estimated space a run starts without being asked (``--ceiling``)."""
+
+MAX_HEAVY_ATOMS = 40
+_BATCH = 2048
+_BOND = {1: Chem.BondType.SINGLE, 2: Chem.BondType.DOUBLE, 3: Chem.BondType.TRIPLE}
+
+
+@dataclass(frozen=True)
+class AtomState:
+    """An element in one valence state (``rules/valences.tsv``)."""
+
+    id: str
+    element: str
+    valence: int
+    charge: int
+    extra: bool
+
+
+@dataclass(frozen=True)
+class AtomType:
+    """An atom state with a fixed hydrogen count; ``degree`` bonds go to heavy atoms."""
+
+    state: AtomState
+    hydrogens: int
+
+    @property
+    def degree(self) -> int:
+        return self.state.valence - self.hydrogens
+
+
+class Isomer(NamedTuple):
+    """One generated structure: canonical SMILES and the sanitised RDKit molecule."""
+
+    smiles: str
+    mol: Chem.Mol
+
+
+class Filter(NamedTuple):
+    """A plausibility filter row of ``rules/filters.tsv``."""
+
+    id: str
+    pattern: Chem.Mol
+    reason: str
+
+
+@lru_cache(maxsize=None)
+def atom_states() -> tuple[AtomState, ...]:
+    """The valence states of ``rules/valences.tsv``."""
+    return tuple(
+        AtomState(r["id"], r["element"], int(r["valence"]), int(r["charge"]), r["state"] == "extra")
+        for r in read_table("valences")
+    )
+
+
+@lru_cache(maxsize=None)
+def plausibility_filters() -> tuple[Filter, ...]:
+    """The rows of ``rules/filters.tsv``, SMARTS compiled."""
+    rows = []
+    for r in read_table("filters"):
+        pattern = Chem.MolFromSmarts(r["smarts"])
+        if pattern is None:
+            raise ValueError(f"rules/filters.tsv row {r['id']}: bad SMARTS {r['smarts']!r}")
+        rows.append(Filter(r["id"], pattern, r["reason"]))
+    return tuple(rows)
+
+
+def compile_smarts(text: str, what: str = "SMARTS") -> Chem.Mol:
+    """Compile a user's SMARTS or raise InputError with a one-line reason."""
+    pattern = Chem.MolFromSmarts(text) if text and text.strip() else None
+    if pattern is None or pattern.GetNumAtoms() == 0:
+        raise InputError(f"{what} {text!r} is not valid SMARTS (example: 'C(=O)O' or '[OH]')")
+    return pattern
+
+
+# ---------------------------------------------------------------- pruning ----
+# A user's SMARTS prunes before structures are built only where the answer is
+# already fixed by the atom types: one-atom patterns over element, total H count
+# and charge, and forbidden triple bonds (a triple bond is never aromatic).
+
+
+def _leaf(line: str, t: AtomType, in_triple: bool) -> bool | None:
+    words = line.split()
+    if len(words) < 3:
+        return None
+    kind, value, negated = words[0], words[1], "!=" in words or "not" in words
+    try:
+        number = int(value)
+    except ValueError:
+        return None
+    if kind == "AtomAtomicNum":
+        result: bool | None = Chem.GetPeriodicTable().GetAtomicNumber(t.state.element) == number
+    elif kind == "AtomType":
+        same = Chem.GetPeriodicTable().GetAtomicNumber(t.state.element) == number % 1000
+        aromatic = number >= 1000
+        if not same:
+            result = False
+        elif in_triple:
+            result = not aromatic
+        else:
+            result = None
+    elif kind == "AtomHCount":
+        result = t.hydrogens == number
+    elif kind == "AtomFormalCharge":
+        result = t.state.charge == number
+    else:
+        return None
+    if result is None:
+        return None
+    return (not result) if negated else result
+
+
+def _evaluate(lines: list[str], t: AtomType, in_triple: bool) -> bool | None:
+    """Three-valued truth of an RDKit query description for an atom type."""
+
+    def node(i: int, depth: int) -> tuple[bool | None, int]:
+        text = lines[i].strip()
+        if text in ("AtomAnd", "AtomOr"):
+            values, j = [], i + 1
+            while j < len(lines) and _indent(lines[j]) > depth:
+                value, j = node(j, _indent(lines[j]))
+                values.append(value)
+            if text == "AtomAnd":
+                if False in values:
+                    return False, j
+                return (None if None in values else True), j
+            if True in values:
+                return True, j
+            return (None if None in values else False), j
+        j = i + 1
+        while j < len(lines) and _indent(lines[j]) > depth:
+            j += 1
+        return _leaf(text, t, in_triple), j
+
+    return node(0, _indent(lines[0]))[0] if lines else None
+
+
+def _indent(line: str) -> int:
+    return len(line) - len(line.lstrip())
+
+
+def _atom_truth(pattern: Chem.Mol, index: int, t: AtomType, in_triple: bool = False) -> bool | None:
+    atom = pattern.GetAtomWithIdx(index)
+    if not atom.HasQuery():
+        return None
+    lines = [ln for ln in atom.DescribeQuery().splitlines() if ln.strip()]
+    return _evaluate(lines, t, in_triple)
+
+
+def _triple_bond_pattern(pattern: Chem.Mol) -> bool:
+    if pattern.GetNumAtoms() != 2 or pattern.GetNumBonds() != 1:
+        return False
+    text = pattern.GetBondWithIdx(0).DescribeQuery().split()
+    return text[:2] == ["BondOrder", "3"] and "!=" not in text
+
+
+# ------------------------------------------------------------------ space ----
+
+
+def _state_choices(formula: Formula, complete: bool) -> Iterator[dict[AtomState, int]]:
+    """Charge-balanced assignments of valence states to the heavy atoms."""
+    per_element = []
+    for element, n in formula.counts:
+        if element == "H":
+            continue
+        states = [s for s in atom_states() if s.element == element and (not s.extra or not complete)]
+        per_element.append([dict(zip(states, c)) for c in _compositions(n, len(states))])
+    for parts in product(*per_element):
+        merged = {s: c for part in parts for s, c in part.items() if c}
+        if sum(s.charge * c for s, c in merged.items()) == 0:
+            yield merged
+
+
+def _compositions(n: int, k: int) -> Iterator[tuple[int, ...]]:
+    if k == 1:
+        yield (n,)
+        return
+    for first in range(n, -1, -1):
+        for rest in _compositions(n - first, k - 1):
+            yield (first, *rest)
+
+
+def _multisets(count: int, hmax: int, total: int) -> Iterator[tuple[int, ...]]:
+    """Non-increasing tuples of ``count`` values in 0..hmax summing to ``total``."""
+    if count == 0:
+        if total == 0:
+            yield ()
+        return
+    for h in range(min(hmax, total), -1, -1):
+        if h * count < total:
+            break
+        for rest in _multisets(count - 1, h, total - h):
+            yield (h, *rest)
+
+
+def _hydrogen_shares(
+    groups: list[tuple[AtomState, int]], hydrogens: int, single: bool
+) -> Iterator[Counter]:
+    if not groups:
+        if hydrogens == 0:
+            yield Counter()
+        return
+    (state, count), rest = groups[0], groups[1:]
+    hmax = state.valence if single else state.valence - 1
+    for share in range(min(hydrogens, hmax * count), -1, -1):
+        for tup in _multisets(count, hmax, share):
+            for tail in _hydrogen_shares(rest, hydrogens - share, single):
+                yield Counter(AtomType(state, h) for h in tup) + tail
+
+
+class IsomerStream:
+    """The constitutional isomers of a formula, as a lazy stream.
+
+    Parameters
+    ----------
+    formula : str or Formula
+    complete : bool
+        True: every connected structure with standard valences, neutral, no
+        filters (``isomers --all``).  False: adds the charge-separated and
+        hypervalent states of ``rules/valences.tsv`` and removes the motifs of
+        ``rules/filters.tsv``.
+    require, forbid : iterable of str
+        SMARTS every structure must match / must not match.
+    ceiling : int
+        Refuse (InputError) when the estimated space is larger; 0 lifts it.
+    budget : float, optional
+        Seconds after which the stream stops; ``complete_run`` then says False.
+
+    Notes
+    -----
+    After iteration, ``explored`` counts structures built, ``removed`` counts
+    structures per filter id, and ``complete_run`` tells whether the space was
+    exhausted.
+    """
+
+    def __init__(
+        self,
+        formula: str | Formula,
+        *,
+        complete: bool = False,
+        require: Iterable[str] = (),
+        forbid: Iterable[str] = (),
+        ceiling: int = DEFAULT_CEILING,
+        budget: float | None = None,
+    ) -> None:
+        self.formula = formula if isinstance(formula, Formula) else parse_formula(formula)
+        if self.formula.heavy_atoms > MAX_HEAVY_ATOMS:
+            raise InputError(f"formula has {self.formula.heavy_atoms} heavy atoms; at most {MAX_HEAVY_ATOMS}")
+        if ceiling < 0:
+            raise InputError("the ceiling must be 0 (no limit) or a positive number of structures")
+        if budget is not None and budget <= 0:
+            raise InputError("the time budget must be a positive number of seconds")
+        self.complete = complete
+        self.require = tuple(require)
+        self.forbid = tuple(forbid)
+        self._require = [compile_smarts(s, "--require") for s in self.require]
+        self._forbid = [compile_smarts(s, "--forbid") for s in self.forbid]
+        self.ceiling = ceiling
+        self.budget = budget
+        self.explored = 0
+        self.removed: Counter = Counter()
+        self.complete_run = False
+
+    # -- the runs of the compiled core ------------------------------------------
+
+    def _runs(self) -> Iterator[list[tuple[AtomType, int]]]:
+        single = self.formula.heavy_atoms == 1
+        hydrogens = self.formula["H"]
+        for states in _state_choices(self.formula, self.complete):
+            groups = sorted(states.items(), key=lambda sc: sc[0].id)
+            for share in _hydrogen_shares(groups, hydrogens, single):
+                types = sorted(share.items(), key=lambda tc: _type_key(tc[0]), reverse=True)
+                if self._feasible(types, single) and self._may_pass(types):
+                    yield types
+
+    @staticmethod
+    def _feasible(types: list[tuple[AtomType, int]], single: bool) -> bool:
+        if single:
+            return types[0][0].degree == 0
+        total = sum(t.degree * c for t, c in types)
+        n = sum(c for _, c in types)
+        return all(t.degree >= 1 for t, _ in types) and total % 2 == 0 and total // 2 >= n - 1
+
+    def _may_pass(self, types: list[tuple[AtomType, int]]) -> bool:
+        for p in self._require:
+            if p.GetNumAtoms() == 1 and all(_atom_truth(p, 0, t) is False for t, _ in types):
+                return False
+        for p in self._forbid:
+            if p.GetNumAtoms() == 1 and any(_atom_truth(p, 0, t) is True for t, _ in types):
+                return False
+        return True
+
+    def _enumerator(self, types: list[tuple[AtomType, int]]) -> _enum.Enumerator:
+        size = len(types)
+        forbid = bytearray(size * size)
+        for p in self._forbid:
+            if not _triple_bond_pattern(p):
+                continue
+            for i, (a, _) in enumerate(types):
+                for j, (b, _) in enumerate(types):
+                    if (_atom_truth(p, 0, a, True) and _atom_truth(p, 1, b, True)) or (
+                        _atom_truth(p, 1, a, True) and _atom_truth(p, 0, b, True)
+                    ):
+                        forbid[i * size + j] |= 1 << 3
+        return _enum.Enumerator(
+            [size - i for i in range(size)],
+            [t.degree for t, _ in types],
+            [c for _, c in types],
+            bytes(forbid),
+        )
+
+    # -- public verbs --------------------------------------------------------------
+
+    def estimate(self, probes: int = 64, seed: int = 1) -> float:
+        """Knuth's random-probe estimate of the structures the core will build.
+
+        References
+        ----------
+        D. E. Knuth, "Estimating the efficiency of backtrack programs",
+        Math. Comp. 1975, 29, 121. doi:10.1090/S0025-5718-1975-0373371-6
+        """
+        return sum(self._enumerator(types).estimate(probes, seed) for types in self._runs())
+
+    def _check_ceiling(self) -> None:
+        if not self.ceiling:
+            return
+        guess = self.estimate()
+        if guess > self.ceiling:
+            raise InputError(
+                f"{self.formula.hill}: about {guess:.2g} structures to build, above the limit of "
+                f"{self.ceiling:,}; narrow it with --require/--forbid, or pass --ceiling 0 to lift it"
+            )
+
+    def __iter__(self) -> Iterator[Isomer]:
+        self._check_ceiling()
+        self.explored, self.removed, self.complete_run = 0, Counter(), False
+        deadline = None if self.budget is None else time.monotonic() + self.budget
+        for types in self._runs():
+            core = self._enumerator(types)
+            kinds = [t for t, _ in types]
+            while True:
+                if deadline is not None and time.monotonic() > deadline:
+                    return
+                _, records = core.next_batch(_BATCH)
+                if not records:
+                    break
+                for record in records:
+                    self.explored += 1
+                    isomer = self._accept(kinds, record)
+                    if isomer is not None:
+                        yield isomer
+        self.complete_run = True
+
+    def count(self) -> int:
+        """Number of isomers; in the complete space without patterns, only
+        structures with a second Kekule form are built in Python."""
+        if not self.complete or self._require or self._forbid:
+            return sum(1 for _ in self)
+        self._check_ceiling()
+        self.explored, self.complete_run = 0, False
+        deadline = None if self.budget is None else time.monotonic() + self.budget
+        total = 0
+        for types in self._runs():
+            core = self._enumerator(types)
+            kinds = [t for t, _ in types]
+            while True:
+                if deadline is not None and time.monotonic() > deadline:
+                    return total
+                skipped, records = core.next_batch(_BATCH, True)
+                if not records and not skipped:
+                    break
+                total += skipped
+                self.explored += skipped + len(records)
+                total += sum(1 for r in records if self._accept(kinds, r) is not None)
+        self.complete_run = True
+        return total
+
+    # -- one structure ---------------------------------------------------------
+
+    def _accept(self, kinds: list[AtomType], record: bytes) -> Isomer | None:
+        mol = build_molecule(kinds, record)
+        if mol is None:
+            return None
+        smiles = Chem.MolToSmiles(mol)
+        if record[-1] and not _is_kekule_representative(mol, smiles, kinds, record):
+            return None
+        if not self.complete:
+            for f in plausibility_filters():
+                if mol.HasSubstructMatch(f.pattern):
+                    self.removed[f.id] += 1
+                    return None
+        if any(not mol.HasSubstructMatch(p) for p in self._require):
+            return None
+        if any(mol.HasSubstructMatch(p) for p in self._forbid):
+            return None
+        return Isomer(smiles, mol)
+
+
+def _type_key(t: AtomType) -> tuple:
+    return (t.degree, t.state.valence, -t.hydrogens, t.state.id)
+
+
+def build_molecule(kinds: list[AtomType], record: bytes, aromatize: bool = True) -> Chem.Mol | None:
+    """An RDKit molecule from one record of the compiled core."""
+    n = (int((8 * (len(record) - 1) + 1) ** 0.5) - 1) // 2
+    rw = Chem.RWMol()
+    for i in range(n):
+        t = kinds[record[i]]
+        atom = Chem.Atom(t.state.element)
+        atom.SetFormalCharge(t.state.charge)
+        atom.SetNumExplicitHs(t.hydrogens)
+        atom.SetNoImplicit(True)
+        rw.AddAtom(atom)
+    p = n
+    for i in range(n):
+        for j in range(i + 1, n):
+            order = record[p]
+            p += 1
+            if order:
+                rw.AddBond(i, j, _BOND[order])
+    mol = rw.GetMol()
+    ops = Chem.SANITIZE_ALL if aromatize else Chem.SANITIZE_ALL ^ Chem.SANITIZE_SETAROMATICITY
+    try:
+        Chem.SanitizeMol(mol, ops)
+    except Exception:  # RDKit rejects a valence it does not accept
+        return None
+    return mol
+
+
+def _is_kekule_representative(mol: Chem.Mol, smiles: str, kinds: list[AtomType], record: bytes) -> bool:
+    """True when this Kekule form is the one RDKit reads back from the canonical SMILES."""
+    if not any(a.GetIsAromatic() for a in mol.GetAtoms()):
+        return True
+    reference = Chem.MolFromSmiles(smiles)
+    Chem.Kekulize(reference, clearAromaticFlags=True)
+    own = build_molecule(kinds, record, aromatize=False)
+    return Chem.MolToSmiles(own) == Chem.MolToSmiles(reference)
+
+
+def isomers(formula: str, **options) -> Iterator[str]:
+    """Canonical SMILES of the isomers of ``formula``; options as :class:`IsomerStream`."""
+    return (iso.smiles for iso in IsomerStream(formula, **options))
