@@ -1,0 +1,522 @@
+"""Observed 1H peak lists: reading, solvent signals, integral normalisation.
+
+Peak lists arrive inline, as written in papers and supporting information, or
+as files (CSV, TSV, JSON, JCAMP-DX peak tables).
+
+>>> spec = parse_peak_text("1H NMR (400 MHz, CDCl3) δ 4.12 (q, J = 7.1 Hz, 2H), 2.05 (s, 3H)")
+>>> spec.field_mhz, spec.solvent, [p.multiplicity for p in spec.peaks]
+(400.0, 'CDCl3', ['q', 's'])
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import re
+import warnings
+from dataclasses import dataclass, replace
+from fractions import Fraction
+from functools import lru_cache
+from pathlib import Path
+
+from .errors import InputError
+from .tables import read_table
+
+SHIFT_RANGE = (-1.0, 16.0)
+_SIMPLE = {"s": 0, "d": 1, "t": 2, "q": 3, "quint": 4, "sext": 5, "sept": 6}
+_ALIASES = {
+    "p": "quint", "quin": "quint", "pent": "quint", "pentet": "quint", "quintet": "quint",
+    "sextet": "sext", "hept": "sept", "septet": "sept", "heptet": "sept", "sep": "sept",
+    "singlet": "s", "doublet": "d", "triplet": "t", "quartet": "q", "multiplet": "m",
+    "bs": "br s", "brs": "br s", "br. s": "br s", "br.s": "br s", "bs.": "br s", "br": "br",
+    "br.": "br", "broad": "br", "br m": "m", "brm": "m", "app t": "t", "app d": "d", "app s": "s",
+}
+_COMPOUND = re.compile(r"^[dtq]{2,4}$")
+_NUMBER = r"[-−]?\d+(?:\.\d+)?"
+_DASH = r"\s*[-–—]\s*"
+
+
+@dataclass(frozen=True)
+class Peak:
+    """One observed signal.
+
+    Attributes
+    ----------
+    shift : centre in ppm (the middle of a range).
+    low, high : the range in ppm (equal for a single value).
+    integral : as given, relative or absolute; None when not given.
+    multiplicity : normalised text: s, d, t, q, quint, sext, sept, m, br s, br, dd, dt, ...
+    j : coupling constants in Hz, as given.
+    """
+
+    shift: float
+    low: float
+    high: float
+    integral: float | None = None
+    multiplicity: str = "m"
+    j: tuple[float, ...] = ()
+
+    @property
+    def broad(self) -> bool:
+        return self.multiplicity.startswith("br")
+
+    @property
+    def label(self) -> str:
+        where = f"{self.high:.2f}–{self.low:.2f}" if self.high - self.low > 1e-9 else f"{self.shift:.2f}"
+        return f"{where} ({self.multiplicity})"
+
+
+@dataclass(frozen=True)
+class Spectrum:
+    """A peak list with what its header or file says about the experiment."""
+
+    peaks: tuple[Peak, ...]
+    field_mhz: float | None = None
+    solvent: str | None = None
+
+
+@dataclass(frozen=True)
+class Dropped:
+    """A peak taken out as solvent, water or reference, with the reason."""
+
+    peak: Peak
+    reason: str
+
+
+@dataclass(frozen=True)
+class Normalisation:
+    """Whole-number H counts for the kept peaks.
+
+    ``missing`` hydrogens of the formula are not observed (exchangeable H that
+    are broad or exchanged); ``error`` is the largest rounding residual.
+    """
+
+    counts: tuple[int, ...]
+    missing: int
+    scale: float
+    error: float
+
+    @property
+    def text(self) -> str:
+        shown = ", ".join(str(c) for c in self.counts)
+        extra = f"; {self.missing} H not observed" if self.missing else ""
+        return f"{shown} H{extra} (scale {self.scale:.4g}, rounding {self.error:.2f})"
+
+
+# ---------------------------------------------------------------- solvents ----
+
+
+@dataclass(frozen=True)
+class Solvent:
+    """A deuterated solvent of ``rules/solvents.tsv``."""
+
+    id: str
+    residual: float
+    residual_multiplicity: str
+    water: float
+    exchange: bool
+    tolerance_residual: float
+    tolerance_water: float
+    tms: float
+
+
+@lru_cache(maxsize=None)
+def _solvents() -> dict[str, Solvent]:
+    table = {}
+    for r in read_table("solvents"):
+        s = Solvent(r["id"], float(r["residual"]), r["residual_multiplicity"], float(r["water"]),
+                    r["exchange"] == "yes", float(r["tolerance_residual"]),
+                    float(r["tolerance_water"]), float(r["tms"]))
+        for name in [r["id"], *r["aliases"].split(",")]:
+            table[name.strip().lower()] = s
+    return table
+
+
+def solvent_names() -> list[str]:
+    """The solvent ids peakrank knows."""
+    return sorted({s.id for s in _solvents().values()})
+
+
+def find_solvent(name: str) -> Solvent:
+    """Look a solvent up by id or alias; InputError when unknown."""
+    found = _solvents().get(name.strip().lower())
+    if found is None:
+        raise InputError(f"unknown solvent {name!r}; known are {', '.join(solvent_names())}")
+    return found
+
+
+def drop_solvent_signals(peaks: tuple[Peak, ...], solvent: Solvent) -> tuple[tuple[Peak, ...], tuple[Dropped, ...]]:
+    """Remove residual solvent, water and TMS singlets.
+
+    Only sharp or broad singlets (or peaks given without a multiplicity) close to
+    a tabulated value are dropped; a multiplet or a range that covers the value
+    is kept, since it can hold the compound's own signals (common practice).
+    """
+    kept, dropped = [], []
+    for p in peaks:
+        single = p.high - p.low < 0.05
+        simple = p.multiplicity in ("s", "br s", "br", "m") and single
+        reason = None
+        if simple and abs(p.shift - solvent.tms) <= 0.02:
+            reason = "TMS reference"
+        elif simple and p.multiplicity != "m" and abs(p.shift - solvent.residual) <= solvent.tolerance_residual:
+            reason = f"residual {solvent.id}"
+        elif (p.multiplicity == solvent.residual_multiplicity and single
+              and abs(p.shift - solvent.residual) <= solvent.tolerance_residual):
+            reason = f"residual {solvent.id}"
+        elif simple and p.multiplicity != "m" and abs(p.shift - solvent.water) <= solvent.tolerance_water:
+            reason = f"water in {solvent.id}"
+        if reason:
+            dropped.append(Dropped(p, reason))
+        else:
+            kept.append(p)
+    return tuple(kept), tuple(dropped)
+
+
+# --------------------------------------------------------------- reading -----
+
+
+def normalise_multiplicity(text: str) -> str:
+    """Map the ways papers write multiplicities to one spelling."""
+    t = " ".join(text.strip().lower().replace("(", " ").replace(")", " ").split())
+    t = _ALIASES.get(t, t)
+    if t in _SIMPLE or t in ("m", "br s", "br") or _COMPOUND.match(t):
+        return t
+    if t.startswith("br ") and normalise_multiplicity(t[3:]) in _SIMPLE:
+        return "br s" if t[3:] == "s" else normalise_multiplicity(t[3:])
+    raise InputError(f"multiplicity {text!r} not understood; use s, d, t, q, quint, sext, sept, m, br s, dd, dt, ...")
+
+
+def coupling_groups(multiplicity: str) -> tuple[int, ...] | None:
+    """Sizes of the equivalent partner groups a first-order pattern implies.
+
+    ``"dt"`` gives (1, 2); ``"s"`` gives (); ``"m"`` and ``"br"`` give None (unknown).
+    """
+    if multiplicity in _SIMPLE:
+        n = _SIMPLE[multiplicity]
+        return (n,) if n else ()
+    if multiplicity == "br s":
+        return ()
+    if _COMPOUND.match(multiplicity):
+        return tuple(_SIMPLE[c] for c in multiplicity)
+    return None
+
+
+def _number(text: str) -> float:
+    return float(text.replace("−", "-"))
+
+
+def _make_peak(a: float, b: float | None, integral: float | None, mult: str, j: tuple[float, ...]) -> Peak:
+    low, high = (a, a) if b is None else (min(a, b), max(a, b))
+    for value in (low, high):
+        if not SHIFT_RANGE[0] <= value <= SHIFT_RANGE[1]:
+            raise InputError(f"shift {value:g} ppm is outside {SHIFT_RANGE[0]:g} to {SHIFT_RANGE[1]:g} ppm")
+    if integral is not None and not integral > 0:
+        raise InputError(f"peak at {(low + high) / 2:g} ppm: integral {integral:g} must be positive")
+    if any(x <= 0 or x > 40 for x in j):
+        raise InputError(f"peak at {(low + high) / 2:g} ppm: J values must lie between 0 and 40 Hz")
+    return Peak(round((low + high) / 2, 4), low, high, integral, normalise_multiplicity(mult), j)
+
+
+_HEADER = re.compile(r"^\s*(?:1H|¹H|\^1H|H)?[\s-]*NMR\s*(?:\(([^)]*)\))?\s*[:,]?\s*", re.I)
+_DELTA = re.compile(r"^\s*(?:δ|delta|d)\s*(?:\(?\s*ppm\s*\)?)?\s*[:=]?\s*", re.I)
+_ENTRY = re.compile(
+    rf"\s*({_NUMBER})(?:{_DASH}({_NUMBER}))?\s*(?:\(([^()]*)\))?\s*(?:[,;]|$)"
+)
+
+
+def parse_peak_text(text: str) -> Spectrum:
+    """Read a peak list written as in a paper.
+
+    Parameters
+    ----------
+    text : str
+        For example ``"1H NMR (400 MHz, CDCl3) δ 7.35–7.20 (m, 5H), 4.12 (q,
+        J = 7.1 Hz, 2H), 2.05 (s, 3H)"``; the header is optional.
+
+    Returns
+    -------
+    Spectrum
+
+    Raises
+    ------
+    InputError
+        Text that cannot be read as peaks, shifts outside -1 to 16 ppm, zero or
+        negative H counts, or an empty list.
+    """
+    body, field, solvent = text.strip().rstrip("."), None, None
+    head = _HEADER.match(body)
+    if head and re.search("nmr", head.group(0), re.I):
+        field, solvent = _header_facts(head.group(1) or "")
+        body = body[head.end():]
+    body = _DELTA.sub("", body, count=1)
+    if not body.strip():
+        raise InputError("the peak list is empty; give peaks like '7.26 (s, 1H), 2.10 (s, 3H)'")
+    peaks, pos = [], 0
+    while pos < len(body):
+        m = _ENTRY.match(body, pos)
+        if not m or m.end() == pos:
+            rest = body[pos:].strip()
+            raise InputError(f"cannot read the peak list at {rest[:30]!r}; write e.g. '4.12 (q, J = 7.1 Hz, 2H)'")
+        a, b, inside = m.group(1), m.group(2), m.group(3)
+        integral, mult, j = _inside(inside or "")
+        peaks.append(_make_peak(_number(a), _number(b) if b else None, integral, mult, j))
+        pos = m.end()
+    return Spectrum(tuple(peaks), field, solvent)
+
+
+def _header_facts(inside: str) -> tuple[float | None, str | None]:
+    field = solvent = None
+    for part in re.split(r"[,;]", inside):
+        part = part.strip()
+        m = re.match(r"(\d+(?:\.\d+)?)\s*MHz", part, re.I)
+        if m:
+            field = float(m.group(1))
+        elif part:
+            solvent = find_solvent(part).id
+    return field, solvent
+
+
+def _inside(inside: str) -> tuple[float | None, str, tuple[float, ...]]:
+    integral, mult, j = None, "m", ()
+    jm = re.search(r"J\s*(?:\([^)]*\))?\s*=\s*((?:" + _NUMBER + r"\s*(?:,|and|&)?\s*)+)(?:\s*Hz)?", inside)
+    if jm:
+        j = tuple(_number(x) for x in re.findall(_NUMBER, jm.group(1)))
+        inside = inside[: jm.start()] + "," + inside[jm.end():]
+    for part in [p.strip() for p in re.split(r"[,;]", inside) if p.strip()]:
+        part = re.sub(r"\s*Hz$", "", part)
+        hm = re.fullmatch(r"(" + _NUMBER + r")\s*H", part)
+        if hm:
+            integral = _number(hm.group(1))
+            if integral <= 0:
+                raise InputError(f"H count {part!r} must be positive")
+        elif re.fullmatch(_NUMBER, part):
+            continue
+        else:
+            mult = part
+    return integral, mult, j
+
+
+def _peak_from_fields(shift: str, integral: object, mult: object, j: object) -> Peak:
+    text = str(shift).strip()
+    m = re.fullmatch(rf"({_NUMBER})(?:{_DASH}({_NUMBER}))?", text)
+    if not m:
+        raise InputError(f"shift {text!r} is not a number or a range like 7.35-7.20")
+    value = None if integral is None or (isinstance(integral, float) and math.isnan(integral)) else integral
+    if isinstance(value, str):
+        value = value.strip().rstrip("Hh") or None
+    try:
+        value = None if value is None else float(value)
+    except ValueError:
+        raise InputError(f"integral {integral!r} is not a number") from None
+    mult_text = "m" if mult is None or (isinstance(mult, float) and math.isnan(mult)) or str(mult).strip() == "" else str(mult)
+    js: tuple[float, ...] = ()
+    if j is not None and not (isinstance(j, float) and math.isnan(j)) and str(j).strip():
+        js = tuple(_number(x) for x in re.findall(_NUMBER, str(j)))
+    return _make_peak(_number(m.group(1)), _number(m.group(2)) if m.group(2) else None, value, mult_text, js)
+
+
+_COLUMNS = {
+    "shift": ("shift", "delta", "ppm", "δ", "shift_ppm", "range", "position"),
+    "integral": ("integral", "n_h", "nh", "h", "integration", "area", "intensity"),
+    "multiplicity": ("multiplicity", "mult", "pattern"),
+    "j": ("j", "j_hz", "coupling", "couplings"),
+}
+
+
+def _pick(columns: list[str], role: str) -> str | None:
+    lowered = {c.strip().lower(): c for c in columns}
+    for name in _COLUMNS[role]:
+        if name in lowered:
+            return lowered[name]
+    return None
+
+
+def _read_table_file(path: Path, sep: str) -> Spectrum:
+    import pandas as pd
+
+    try:
+        frame = pd.read_csv(path, sep=sep, dtype=str, comment="#", skipinitialspace=True)
+    except Exception as exc:
+        raise InputError(f"cannot read {path} as a table: {exc}".splitlines()[0]) from None
+    cols = list(frame.columns)
+    shift = _pick(cols, "shift")
+    if shift is None:
+        raise InputError(f"{path}: no shift column; name one of {', '.join(_COLUMNS['shift'])}")
+    roles = {r: _pick(cols, r) for r in ("integral", "multiplicity", "j")}
+    peaks = tuple(
+        _peak_from_fields(
+            row[shift],
+            row[roles["integral"]] if roles["integral"] else None,
+            row[roles["multiplicity"]] if roles["multiplicity"] else None,
+            row[roles["j"]] if roles["j"] else None,
+        )
+        for _, row in frame.iterrows()
+        if isinstance(row[shift], str) and row[shift].strip()
+    )
+    return Spectrum(peaks)
+
+
+def _read_json(path: Path) -> Spectrum:
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError) as exc:
+        raise InputError(f"cannot read {path} as JSON: {exc}") from None
+    items = data.get("peaks") if isinstance(data, dict) else data
+    if not isinstance(items, list):
+        raise InputError(f"{path}: expected a list of peaks or an object with a 'peaks' list")
+    peaks = []
+    for item in items:
+        if not isinstance(item, dict) or not any(k in item for k in ("shift", "range")):
+            raise InputError(f"{path}: each peak needs a 'shift' (or 'range')")
+        shift = item.get("shift", item.get("range"))
+        if isinstance(shift, list | tuple):
+            shift = "-".join(str(x) for x in shift)
+        peaks.append(_peak_from_fields(str(shift), item.get("integral", item.get("n_h")),
+                                       item.get("multiplicity"), item.get("j")))
+    field = data.get("field_mhz") if isinstance(data, dict) else None
+    solvent = data.get("solvent") if isinstance(data, dict) else None
+    return Spectrum(tuple(peaks), float(field) if field else None, find_solvent(solvent).id if solvent else None)
+
+
+def _find_label(node: object, label: str) -> list[str] | None:
+    if isinstance(node, dict):
+        if label in node:
+            return node[label]
+        for value in node.values():
+            found = _find_label(value, label)
+            if found is not None:
+                return found
+    elif isinstance(node, list):
+        for value in node:
+            found = _find_label(value, label)
+            if found is not None:
+                return found
+    return None
+
+
+def _read_jcamp(path: Path) -> Spectrum:
+    """JCAMP-DX peak table: ##PEAK TABLE=(XY..XY) or (XYW..XYW), with optional
+    ##PEAK ASSIGNMENTS=(XYMA) for multiplicities (IUPAC JCAMP-DX for NMR,
+    A. N. Davies, P. Lampen, Appl. Spectrosc. 1993, 47, 1093)."""
+    import nmrglue
+
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            dic = nmrglue.jcampdx.read(str(path))[0]
+    except Exception as exc:
+        raise InputError(f"cannot read {path} as JCAMP-DX: {exc}".splitlines()[0]) from None
+    table = _find_label(dic, "PEAKTABLE")
+    if not table:
+        raise InputError(f"{path}: no ##PEAK TABLE in this JCAMP-DX file")
+    text = table[0]
+    form, _, rows = text.partition("\n")
+    xunits = (_find_label(dic, "XUNITS") or ["PPM"])[0].upper()
+    freq = _find_label(dic, ".OBSERVEFREQUENCY")
+    field = float(freq[0]) if freq else None
+    if "HZ" in xunits and not field:
+        raise InputError(f"{path}: shifts in Hz need ##.OBSERVE FREQUENCY")
+    mults: dict[float, str] = {}
+    assignments = _find_label(dic, "PEAKASSIGNMENTS")
+    if assignments:
+        for m in re.finditer(r"\(\s*(" + _NUMBER + r")\s*,[^,<]*,?\s*<([^>]*)>", assignments[0]):
+            mults[round(_number(m.group(1)), 3)] = m.group(2)
+    peaks = []
+    for line in rows.splitlines():
+        numbers = re.findall(_NUMBER, line)
+        for i in range(0, len(numbers) - 1, 3 if "W" in form.upper() else 2):
+            x, y = _number(numbers[i]), _number(numbers[i + 1])
+            shift = x / field if "HZ" in xunits else x
+            peaks.append(_peak_from_fields(f"{shift:.4f}", y, mults.get(round(x, 3)), None))
+    solvent = _find_label(dic, ".SOLVENTNAME")
+    return Spectrum(tuple(peaks), field, find_solvent(solvent[0]).id if solvent else None)
+
+
+def read_peaks(source: str) -> Spectrum:
+    """Read peaks from a file (by its suffix) or from inline text.
+
+    Raises InputError for unreadable files, unknown formats and malformed text.
+    """
+    text = source.strip()
+    suffix = Path(text).suffix.lower() if "\n" not in text and len(text) < 4096 else ""
+    if suffix in (".csv", ".tsv", ".txt", ".json", ".jdx", ".dx", ".jcamp"):
+        path = Path(text)
+        if not path.is_file():
+            raise InputError(f"peak file {text!r} not found")
+        if suffix == ".json":
+            spectrum = _read_json(path)
+        elif suffix in (".jdx", ".dx", ".jcamp"):
+            spectrum = _read_jcamp(path)
+        elif suffix == ".txt":
+            spectrum = parse_peak_text(path.read_text(encoding="utf-8"))
+        else:
+            spectrum = _read_table_file(path, "," if suffix == ".csv" else "\t")
+    else:
+        spectrum = parse_peak_text(text)
+    if not spectrum.peaks:
+        raise InputError("the peak list is empty")
+    return spectrum
+
+
+# ----------------------------------------------------------- normalisation ----
+
+
+def normalise(peaks: tuple[Peak, ...], hydrogens: int, max_missing: int, keep: int = 3) -> list[Normalisation]:
+    """Whole-number H counts for the peaks, scaled to the formula's H count.
+
+    Relative integrals (27.1, 40.5, 26.9) are scaled so that they sum to the
+    formula's hydrogens, or to fewer when up to ``max_missing`` exchangeable H
+    may be unobserved; every peak holds at least one H.  The plausible choices
+    are returned best first (smallest rounding residual, fewest missing H), so
+    that the matching can decide between them.
+
+    Raises
+    ------
+    InputError
+        When no choice fits: more peaks than hydrogens, or integrals that cannot
+        be brought to whole numbers summing to the formula's count.
+    """
+    n = len(peaks)
+    if n > hydrogens:
+        raise InputError(f"{n} peaks but the formula has only {hydrogens} H; check the formula or the list")
+    given = [p.integral for p in peaks]
+    if any(g is None for g in given):
+        if all(g is None for g in given):
+            return [Normalisation(tuple(0 for _ in peaks), 0, 0.0, 0.0)]
+        raise InputError("some peaks have an integral and some do not; give all or none")
+    total = sum(given)
+    options = []
+    for target in range(hydrogens, max(hydrogens - max_missing, n) - 1, -1):
+        scale = target / total
+        raw = [g * scale for g in given]
+        counts = [max(1, round(r)) for r in raw]
+        diff = target - sum(counts)
+        order = sorted(range(n), key=lambda i: raw[i] - counts[i], reverse=diff > 0)
+        for i in order[: abs(diff)]:
+            counts[i] += 1 if diff > 0 else -1
+        if min(counts) < 1:
+            continue
+        error = max(abs(r - c) / max(c, 1) ** 0.5 for r, c in zip(raw, counts))
+        if error <= 0.35:
+            options.append(Normalisation(tuple(counts), hydrogens - target, scale, error))
+    options.sort(key=lambda o: (round(o.error, 1), o.missing))
+    if not options:
+        ratio = _smallest_ratio(given)
+        raise InputError(
+            f"integrals {', '.join(f'{g:g}' for g in given)} (about {ratio}) cannot be scaled to "
+            f"whole numbers summing to the formula's {hydrogens} H"
+        )
+    return options[:keep]
+
+
+def _smallest_ratio(values: list[float]) -> str:
+    low = min(values)
+    parts = [Fraction(v / low).limit_denominator(4) for v in values]
+    lcm = math.lcm(*(p.denominator for p in parts))
+    return ":".join(str(int(p * lcm)) for p in parts)
+
+
+def with_counts(peaks: tuple[Peak, ...], norm: Normalisation) -> tuple[Peak, ...]:
+    """The peaks with their integrals replaced by the normalised H counts."""
+    return tuple(replace(p, integral=float(c)) for p, c in zip(peaks, norm.counts))
