@@ -22,7 +22,7 @@ import time
 from collections import Counter
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
-from functools import lru_cache
+from functools import cache
 from itertools import product
 from typing import NamedTuple
 
@@ -81,7 +81,7 @@ class Filter(NamedTuple):
     reason: str
 
 
-@lru_cache(maxsize=None)
+@cache
 def atom_states() -> tuple[AtomState, ...]:
     """The valence states of ``rules/valences.tsv``."""
     return tuple(
@@ -90,7 +90,7 @@ def atom_states() -> tuple[AtomState, ...]:
     )
 
 
-@lru_cache(maxsize=None)
+@cache
 def plausibility_filters() -> tuple[Filter, ...]:
     """The rows of ``rules/filters.tsv``, SMARTS compiled."""
     rows = []
@@ -459,7 +459,7 @@ def build_molecule(kinds: list[AtomType], record: bytes, aromatize: bool = True)
     ops = Chem.SANITIZE_ALL if aromatize else Chem.SANITIZE_ALL ^ Chem.SANITIZE_SETAROMATICITY
     try:
         Chem.SanitizeMol(mol, ops)
-    except Exception:  # RDKit rejects a valence it does not accept
+    except Chem.rdchem.MolSanitizeException:  # a valence RDKit does not accept
         return None
     return mol
 

@@ -16,7 +16,7 @@ import re
 import warnings
 from dataclasses import dataclass, replace
 from fractions import Fraction
-from functools import lru_cache
+from functools import cache
 from pathlib import Path
 
 from .errors import InputError
@@ -120,7 +120,7 @@ class Solvent:
     tms: float
 
 
-@lru_cache(maxsize=None)
+@cache
 def _solvents() -> dict[str, Solvent]:
     table = {}
     for r in read_table("solvents"):
@@ -159,9 +159,7 @@ def drop_solvent_signals(peaks: tuple[Peak, ...], solvent: Solvent) -> tuple[tup
         reason = None
         if simple and abs(p.shift - solvent.tms) <= 0.02:
             reason = "TMS reference"
-        elif simple and p.multiplicity != "m" and abs(p.shift - solvent.residual) <= solvent.tolerance_residual:
-            reason = f"residual {solvent.id}"
-        elif (p.multiplicity == solvent.residual_multiplicity and single
+        elif simple and p.multiplicity != "m" and abs(p.shift - solvent.residual) <= solvent.tolerance_residual or (p.multiplicity == solvent.residual_multiplicity and single
               and abs(p.shift - solvent.residual) <= solvent.tolerance_residual):
             reason = f"residual {solvent.id}"
         elif simple and p.multiplicity != "m" and abs(p.shift - solvent.water) <= solvent.tolerance_water:
@@ -218,8 +216,8 @@ def _make_peak(a: float, b: float | None, integral: float | None, mult: str, j: 
     return Peak(round((low + high) / 2, 4), low, high, integral, normalise_multiplicity(mult), j)
 
 
-_HEADER = re.compile(r"^\s*(?:1H|¹H|\^1H|H)?[\s-]*NMR\s*(?:\(([^)]*)\))?\s*[:,]?\s*", re.I)
-_DELTA = re.compile(r"^\s*(?:δ|delta|d)\s*(?:\(?\s*ppm\s*\)?)?\s*[:=]?\s*", re.I)
+_HEADER = re.compile(r"^\s*(?:1H|¹H|\^1H|H)?[\s-]*NMR\s*(?:\(([^)]*)\))?\s*[:,]?\s*", re.IGNORECASE)
+_DELTA = re.compile(r"^\s*(?:δ|delta|d)\s*(?:\(?\s*ppm\s*\)?)?\s*[:=]?\s*", re.IGNORECASE)
 _ENTRY = re.compile(
     rf"\s*({_NUMBER})(?:{_DASH}({_NUMBER}))?\s*(?:\(([^()]*)\))?\s*(?:[,;]|$)"
 )
@@ -246,7 +244,7 @@ def parse_peak_text(text: str) -> Spectrum:
     """
     body, field, solvent = text.strip().rstrip("."), None, None
     head = _HEADER.match(body)
-    if head and re.search("nmr", head.group(0), re.I):
+    if head and re.search("nmr", head.group(0), re.IGNORECASE):
         field, solvent = _header_facts(head.group(1) or "")
         body = body[head.end():]
     body = _DELTA.sub("", body, count=1)
@@ -269,7 +267,7 @@ def _header_facts(inside: str) -> tuple[float | None, str | None]:
     field = solvent = None
     for part in re.split(r"[,;]", inside):
         part = part.strip()
-        m = re.match(r"(\d+(?:\.\d+)?)\s*MHz", part, re.I)
+        m = re.match(r"(\d+(?:\.\d+)?)\s*MHz", part, re.IGNORECASE)
         if m:
             field = float(m.group(1))
         elif part:
@@ -337,7 +335,7 @@ def _read_table_file(path: Path, sep: str) -> Spectrum:
 
     try:
         frame = pd.read_csv(path, sep=sep, dtype=str, comment="#", skipinitialspace=True)
-    except Exception as exc:
+    except (OSError, ValueError, UnicodeDecodeError, pd.errors.ParserError) as exc:
         raise InputError(f"cannot read {path} as a table: {exc}".splitlines()[0]) from None
     cols = list(frame.columns)
     shift = _pick(cols, "shift")
@@ -405,7 +403,7 @@ def _read_jcamp(path: Path) -> Spectrum:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             dic = nmrglue.jcampdx.read(str(path))[0]
-    except Exception as exc:
+    except (OSError, ValueError, IndexError, KeyError, UnicodeDecodeError) as exc:
         raise InputError(f"cannot read {path} as JCAMP-DX: {exc}".splitlines()[0]) from None
     table = _find_label(dic, "PEAKTABLE")
     if not table:
