@@ -112,11 +112,13 @@ def compile_smarts(text: str, what: str = "SMARTS") -> Chem.Mol:
 
 # ---------------------------------------------------------------- pruning ----
 # A user's SMARTS prunes before structures are built only where the answer is
-# already fixed by the atom types: one-atom patterns over element, total H count
-# and charge, and forbidden triple bonds (a triple bond is never aromatic).
+# already fixed by the atom types: one-atom patterns over element number, total
+# H count and charge, and forbidden triple bonds between atoms given by element
+# number (``[#6]#[#7]``); SMARTS ``C`` or ``c`` depends on aromaticity, which is
+# known only for the finished structure.
 
 
-def _leaf(line: str, t: AtomType, in_triple: bool) -> bool | None:
+def _leaf(line: str, t: AtomType) -> bool | None:
     words = line.split()
     if len(words) < 3:
         return None
@@ -128,14 +130,11 @@ def _leaf(line: str, t: AtomType, in_triple: bool) -> bool | None:
     if kind == "AtomAtomicNum":
         result: bool | None = Chem.GetPeriodicTable().GetAtomicNumber(t.state.element) == number
     elif kind == "AtomType":
+        # aliphatic or aromatic is decided only on the finished structure (RDKit
+        # even calls some rings with a triple bond aromatic), so a matching
+        # element leaves the answer open
         same = Chem.GetPeriodicTable().GetAtomicNumber(t.state.element) == number % 1000
-        aromatic = number >= 1000
-        if not same:
-            result = False
-        elif in_triple:
-            result = not aromatic
-        else:
-            result = None
+        result = False if not same else None
     elif kind == "AtomHCount":
         result = t.hydrogens == number
     elif kind == "AtomFormalCharge":
@@ -147,7 +146,7 @@ def _leaf(line: str, t: AtomType, in_triple: bool) -> bool | None:
     return (not result) if negated else result
 
 
-def _evaluate(lines: list[str], t: AtomType, in_triple: bool) -> bool | None:
+def _evaluate(lines: list[str], t: AtomType) -> bool | None:
     """Three-valued truth of an RDKit query description for an atom type."""
 
     def node(i: int, depth: int) -> tuple[bool | None, int]:
@@ -167,7 +166,7 @@ def _evaluate(lines: list[str], t: AtomType, in_triple: bool) -> bool | None:
         j = i + 1
         while j < len(lines) and _indent(lines[j]) > depth:
             j += 1
-        return _leaf(text, t, in_triple), j
+        return _leaf(text, t), j
 
     return node(0, _indent(lines[0]))[0] if lines else None
 
@@ -176,12 +175,12 @@ def _indent(line: str) -> int:
     return len(line) - len(line.lstrip())
 
 
-def _atom_truth(pattern: Chem.Mol, index: int, t: AtomType, in_triple: bool = False) -> bool | None:
+def _atom_truth(pattern: Chem.Mol, index: int, t: AtomType) -> bool | None:
     atom = pattern.GetAtomWithIdx(index)
     if not atom.HasQuery():
         return None
     lines = [ln for ln in atom.DescribeQuery().splitlines() if ln.strip()]
-    return _evaluate(lines, t, in_triple)
+    return _evaluate(lines, t)
 
 
 def _triple_bond_pattern(pattern: Chem.Mol) -> bool:
@@ -335,8 +334,8 @@ class IsomerStream:
                 continue
             for i, (a, _) in enumerate(types):
                 for j, (b, _) in enumerate(types):
-                    if (_atom_truth(p, 0, a, True) and _atom_truth(p, 1, b, True)) or (
-                        _atom_truth(p, 1, a, True) and _atom_truth(p, 0, b, True)
+                    if (_atom_truth(p, 0, a) and _atom_truth(p, 1, b)) or (
+                        _atom_truth(p, 1, a) and _atom_truth(p, 0, b)
                     ):
                         forbid[i * size + j] |= 1 << 3
         return _enum.Enumerator(

@@ -188,28 +188,38 @@ def test_stream_is_lazy_first_five_of_a_huge_space_come_at_once():
 
 
 # Pruning a forbidden triple bond inside the generator must give the same set as filtering
-# the whole stream afterwards with RDKit's substructure match.
+# the whole stream afterwards with RDKit's substructure match.  SMARTS "C" means aliphatic
+# carbon, which RDKit decides only on the finished structure (it calls some rings with a
+# triple bond aromatic), so "C#C" is checked after building; "[#6]#[#6]" names elements
+# only and prunes inside the generator.
 FORBID_CASES = [
-    ("C5H6", True),
-    ("C5H6", False),
-    ("C6H8", True),
-    ("C4H3N", True),
-    ("C5H4O", True),
+    ("C5H6", True, "C#C"),
+    ("C5H6", False, "C#C"),
+    ("C6H8", True, "C#C"),
+    ("C4H3N", True, "C#C"),
+    ("C5H4O", True, "C#C"),
+    ("C5H6", True, "[#6]#[#6]"),
+    ("C4H3N", True, "[#6]#[#6]"),
+    ("C5H4O", True, "[#6]#[#6]"),
+    ("C4H3N", True, "[#6]#[#7]"),
 ]
 
 
 @pytest.mark.parametrize(
-    ("formula", "complete"), FORBID_CASES, ids=[f"{f}-{'all' if c else 'default'}" for f, c in FORBID_CASES]
+    ("formula", "complete", "smarts"),
+    FORBID_CASES,
+    ids=[f"{f}-{'all' if c else 'default'}-{p}" for f, c, p in FORBID_CASES],
 )
-def test_forbid_triple_bond_while_generating_equals_filtering_afterwards(formula, complete):
-    pattern = Chem.MolFromSmarts("C#C")
+def test_forbid_triple_bond_while_generating_equals_filtering_afterwards(formula, complete, smarts):
+    pattern = Chem.MolFromSmarts(smarts)
     full = IsomerStream(formula, complete=complete)
     afterwards = {iso.smiles for iso in full if not iso.mol.HasSubstructMatch(pattern)}
-    pruned = IsomerStream(formula, complete=complete, forbid=["C#C"])
+    pruned = IsomerStream(formula, complete=complete, forbid=[smarts])
     during = {iso.smiles for iso in pruned}
     assert sorted(afterwards - during) == [], "removed by pruning but kept by the pattern"
     assert sorted(during - afterwards) == [], "kept by pruning but matched by the pattern"
-    assert pruned.explored < full.explored  # the pattern cut the search, not only the output
+    if "#6]#" in smarts:
+        assert pruned.explored < full.explored  # the pattern cut the search, not only the output
 
 
 def test_require_hydroxyl_while_generating_equals_filtering_afterwards():
