@@ -15,7 +15,7 @@ from .errors import InputError
 class _Parser(argparse.ArgumentParser):
     """argparse that reports a usage error on one line."""
 
-    def error(self, message: str) -> None:  # noqa: D102
+    def error(self, message: str) -> None:
         self.exit(2, f"{self.prog}: {message} (see {self.prog} --help)\n")
 
 

@@ -261,6 +261,11 @@ class IsomerStream:
         Refuse (InputError) when the estimated space is larger; 0 lifts it.
     budget : float, optional
         Seconds after which the stream stops; ``complete_run`` then says False.
+    hints : iterable of rank.hints.Hint
+        Claims read from a spectrum; a hydrogen distribution that cannot satisfy
+        one is skipped, a structure that misses a hint's SMARTS is dropped, and
+        both are counted in ``hinted`` (hint name -> structures, estimated for
+        skipped distributions).
 
     Notes
     -----
@@ -278,6 +283,7 @@ class IsomerStream:
         forbid: Iterable[str] = (),
         ceiling: int = DEFAULT_CEILING,
         budget: float | None = None,
+        hints: Iterable = (),
     ) -> None:
         self.formula = formula if isinstance(formula, Formula) else parse_formula(formula)
         if self.formula.heavy_atoms > MAX_HEAVY_ATOMS:
@@ -293,6 +299,9 @@ class IsomerStream:
         self._forbid = [compile_smarts(s, "--forbid") for s in self.forbid]
         self.ceiling = ceiling
         self.budget = budget
+        self.hints = tuple(hints)
+        self._hint_patterns = [(h.name, h.pattern()) for h in self.hints if h.smarts]
+        self.hinted: Counter = Counter()
         self.explored = 0
         self.removed: Counter = Counter()
         self.complete_run = False
@@ -306,8 +315,13 @@ class IsomerStream:
             groups = sorted(states.items(), key=lambda sc: sc[0].id)
             for share in _hydrogen_shares(groups, hydrogens, single):
                 types = sorted(share.items(), key=lambda tc: _type_key(tc[0]), reverse=True)
-                if self._feasible(types, single) and self._may_pass(types):
-                    yield types
+                if not (self._feasible(types, single) and self._may_pass(types)):
+                    continue
+                refused = next((h for h in self.hints if not h.allows(types)), None)
+                if refused is not None:
+                    self.hinted[refused.name] += round(self._enumerator(types).estimate(16, 1))
+                    continue
+                yield types
 
     @staticmethod
     def _feasible(types: list[tuple[AtomType, int]], single: bool) -> bool:
@@ -370,6 +384,7 @@ class IsomerStream:
     def __iter__(self) -> Iterator[Isomer]:
         self._check_ceiling()
         self.explored, self.removed, self.complete_run = 0, Counter(), False
+        self.hinted = Counter()
         deadline = None if self.budget is None else time.monotonic() + self.budget
         for types in self._runs():
             core = self._enumerator(types)
@@ -390,7 +405,7 @@ class IsomerStream:
     def count(self) -> int:
         """Number of isomers; in the complete space without patterns, only
         structures with a second Kekule form are built in Python."""
-        if not self.complete or self._require or self._forbid:
+        if not self.complete or self._require or self._forbid or self.hints:
             return sum(1 for _ in self)
         self._check_ceiling()
         self.explored, self.complete_run = 0, False
@@ -429,6 +444,10 @@ class IsomerStream:
             return None
         if any(mol.HasSubstructMatch(p) for p in self._forbid):
             return None
+        for name, pattern in self._hint_patterns:
+            if not mol.HasSubstructMatch(pattern):
+                self.hinted[name] += 1
+                return None
         return Isomer(smiles, mol)
 
 

@@ -8,7 +8,7 @@
 from __future__ import annotations
 
 import csv
-from functools import lru_cache
+from functools import cache
 from pathlib import Path
 
 _SOURCE_RULES = Path(__file__).resolve().parent.parent / "rules"
@@ -20,7 +20,7 @@ def rules_dir() -> Path:
     return _SOURCE_RULES if _SOURCE_RULES.is_dir() else _PACKAGED_RULES
 
 
-@lru_cache(maxsize=None)
+@cache
 def _load(name: str) -> tuple[tuple[str, ...], tuple[tuple[str, ...], ...]]:
     path = rules_dir() / f"{name}.tsv"
     lines = [ln for ln in path.read_text(encoding="utf-8").splitlines() if ln.strip()]

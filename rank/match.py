@@ -1,0 +1,228 @@
+"""Match predicted signals to observed peaks and compute the misfit.
+
+Every hydrogen of the formula is one row; every observed hydrogen (a peak of
+normalised count n gives n columns) and every hydrogen allowed to be unobserved
+is one column.  The Hungarian algorithm (H. W. Kuhn, Naval Res. Logist. Q.
+1955, 2, 83, doi:10.1002/nav.3800020109; scipy's ``linear_sum_assignment``)
+finds the cheapest one-to-one assignment.  So one observed peak can hold several
+predicted classes (an overlapping aromatic multiplet), an exchangeable class may
+go unobserved, and integrals are respected by construction.
+
+The misfit of a candidate is
+
+    misfit = S + I + M + J + C
+
+    S = (1/H) Σ_protons min(((δ_obs - δ_pred) / σ)^2, z_cap)   shift residuals
+    I = w_I · Σ_classes (protons not placed in the class's main peak)   integrals
+    M = w_M · Σ_classes multiplicity penalty (0, 0.3, 0.5 or 1)     patterns
+    J = w_J · Σ_classes coupling-constant penalty (0..1)           J values
+    C = w_C · (observed peaks left empty + predicted groups beyond one per peak)
+
+δ_obs is the nearest point of the observed peak or range; σ is the
+prediction's uncertainty.  Predicted signals placed in one peak form one group
+when they lie within ``group_gap`` ppm (plus the peak's width) of each other,
+as overlapping lines merge in a real spectrum; more groups in one peak mean the
+candidate predicts more resolved signals than were seen.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from itertools import pairwise
+from typing import NamedTuple
+
+import numpy as np
+from scipy.optimize import linear_sum_assignment
+
+from .peaks import Peak, coupling_groups
+
+
+@dataclass(frozen=True)
+class Settings:
+    """Weights of the misfit (see the module docstring)."""
+
+    z_cap: float = 9.0
+    w_integral: float = 1.0
+    w_multiplicity: float = 1.0
+    w_coupling: float = 0.5
+    w_count: float = 0.5
+    group_gap: float = 0.12
+    absent_exchangeable: float = 0.5
+    absent_other: float = 25.0
+    observed_exchanged: float = 4.0
+    j_tolerance: float = 1.5
+
+
+class Pairing(NamedTuple):
+    """One predicted signal and the observed peak holding most of its protons."""
+
+    signal: int
+    peak: int | None          # None: not observed
+    protons: int               # protons of the signal placed in that peak
+    observed: float | None
+    predicted: float
+    z: float
+    multiplicity_penalty: float
+    coupling_penalty: float
+
+
+class MisfitParts(NamedTuple):
+    shift: float
+    integral: float
+    multiplicity: float
+    coupling: float
+    count: float
+
+    @property
+    def total(self) -> float:
+        return self.shift + self.integral + self.multiplicity + self.coupling + self.count
+
+
+class Match(NamedTuple):
+    """The assignment of one candidate and its misfit."""
+
+    misfit: float
+    parts: MisfitParts
+    pairings: tuple[Pairing, ...]
+
+
+def _distance(signal_shift: float, peak: Peak) -> float:
+    if peak.low <= signal_shift <= peak.high:
+        return 0.0
+    return min(abs(signal_shift - peak.low), abs(signal_shift - peak.high))
+
+
+def multiplicity_penalty(observed: str, predicted: str, exchangeable: bool) -> float:
+    """0 when the observed pattern fits the predicted first-order pattern, up to 1.
+
+    An ``m`` on either side says nothing and costs nothing; a singlet against a
+    class coupled to two or more H costs 1; one coupling partner too many or
+    too few costs 0.5; the right number of partners in another grouping
+    (``q`` against ``dt``) costs 0.3.
+    """
+    if exchangeable:
+        return 0.0 if observed in ("s", "br s", "br", "m") else 0.5
+    obs, pred = coupling_groups(observed), coupling_groups(predicted)
+    if obs is None or pred is None:
+        return 0.0
+    n_obs, n_pred = sum(obs), sum(pred)
+    if n_obs == n_pred:
+        return 0.0 if sorted(obs) == sorted(pred) or len(obs) <= 1 and len(pred) <= 1 else 0.3
+    if n_obs == 0 and n_pred >= 2:
+        return 1.0
+    return 0.5 if abs(n_obs - n_pred) == 1 else 1.0
+
+
+def coupling_penalty(observed: tuple[float, ...], predicted: tuple[float, ...], tolerance: float) -> float:
+    """Mean over observed J of how far the nearest predicted J lies beyond ``tolerance`` Hz, in 3 Hz steps."""
+    if not observed or not predicted:
+        return 0.0
+    total = 0.0
+    for j in observed:
+        gap = min(abs(j - p) for p in predicted)
+        total += min(1.0, max(0.0, gap - tolerance) / 3.0)
+    return total / len(observed)
+
+
+def _groups(shifts: list[float], gap: float) -> int:
+    if not shifts:
+        return 0
+    ordered = sorted(shifts)
+    return 1 + sum(1 for a, b in pairwise(ordered) if b - a > gap)
+
+
+def match(signals, peaks: tuple[Peak, ...], counts: tuple[int, ...], missing: int,
+          exchange_absent: bool, settings: Settings = Settings()) -> Match:
+    """Assign predicted signals to observed peaks.
+
+    Parameters
+    ----------
+    signals : sequence of predicted signals (``rank.predict.Signal``): shift,
+        n_h, sigma, multiplicity, j, exchangeable.
+    peaks : the observed peaks (solvent signals already dropped).
+    counts : whole-number H per peak (a ``Normalisation``); all 0 when the
+        list had no integrals, and then every peak may hold any number of H.
+    missing : hydrogens of the formula not observed.
+    exchange_absent : True in D2O or CD3OD, where OH/NH/COOH exchange away.
+
+    Returns
+    -------
+    Match
+    """
+    rows = [i for i, s in enumerate(signals) for _ in range(s.n_h)]
+    n_h = len(rows)
+    no_integrals = not any(counts)
+    if no_integrals:
+        capacity = [n_h] * len(peaks)
+        absent = n_h
+    else:
+        capacity = list(counts)
+        absent = missing
+    cols = [p for p, c in enumerate(capacity) for _ in range(c)] + [None] * absent
+
+    pen_mult = np.zeros((len(signals), len(peaks)))
+    pen_j = np.zeros((len(signals), len(peaks)))
+    z2 = np.zeros((len(signals), len(peaks)))
+    for i, s in enumerate(signals):
+        for p, peak in enumerate(peaks):
+            z = _distance(s.shift, peak) / s.sigma
+            z2[i, p] = min(z * z, settings.z_cap)
+            pen_mult[i, p] = multiplicity_penalty(peak.multiplicity, s.multiplicity, s.exchangeable)
+            pen_j[i, p] = coupling_penalty(peak.j, s.j, settings.j_tolerance)
+
+    cost = np.empty((n_h, len(cols)))
+    for r, i in enumerate(rows):
+        s = signals[i]
+        per_proton = (settings.w_multiplicity * pen_mult[i] + settings.w_coupling * pen_j[i]) / s.n_h
+        for c, p in enumerate(cols):
+            if p is None:
+                if s.exchangeable:
+                    cost[r, c] = 0.0 if exchange_absent else settings.absent_exchangeable
+                else:
+                    cost[r, c] = settings.absent_other
+            else:
+                extra = settings.observed_exchanged if (s.exchangeable and exchange_absent) else 0.0
+                cost[r, c] = z2[i, p] / max(n_h - missing, 1) + per_proton[p] + extra
+    row_ind, col_ind = linear_sum_assignment(cost)
+
+    placed: dict[int, dict[int | None, int]] = {}
+    for r, c in zip(row_ind, col_ind):
+        placed.setdefault(rows[r], {}).setdefault(cols[c], 0)
+        placed[rows[r]][cols[c]] += 1
+
+    pairings, shift_sum, integral, mult, coup = [], 0.0, 0.0, 0.0, 0.0
+    by_peak: dict[int, list[float]] = {}
+    for i, s in enumerate(signals):
+        where = placed.get(i, {None: s.n_h})
+        main, protons = max(where.items(), key=lambda kv: (kv[1], kv[0] is not None))
+        split = s.n_h - protons
+        if split and getattr(s, "diastereotopic", False) and len(where) == 2 and None not in where:
+            split = 0
+        integral += split
+        for p, k in where.items():
+            if p is None:
+                shift_sum += k * (0.0 if s.exchangeable else settings.z_cap)
+            else:
+                shift_sum += k * z2[i, p]
+        if main is None:
+            pairings.append(Pairing(i, None, protons, None, s.shift, 0.0, 0.0, 0.0))
+            continue
+        by_peak.setdefault(main, []).append(s.shift)
+        peak = peaks[main]
+        z = (peak.shift - s.shift) / s.sigma if _distance(s.shift, peak) else 0.0
+        mult += pen_mult[i, main]
+        coup += pen_j[i, main]
+        pairings.append(Pairing(i, main, protons, peak.shift, s.shift, z,
+                                float(pen_mult[i, main]), float(pen_j[i, main])))
+    observed_h = max(n_h - missing, 1) if not no_integrals else max(n_h, 1)
+    count = len(peaks) - len(by_peak) + sum(
+        _groups(shifts, settings.group_gap + peaks[p].high - peaks[p].low) - 1 for p, shifts in by_peak.items()
+    )
+    parts = MisfitParts(
+        shift=shift_sum / observed_h,
+        integral=settings.w_integral * integral,
+        multiplicity=settings.w_multiplicity * mult,
+        coupling=settings.w_coupling * coup,
+        count=settings.w_count * count,
+    )
+    return Match(round(parts.total, 6), parts, tuple(pairings))
