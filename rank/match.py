@@ -53,6 +53,9 @@ class Settings:
     j_tolerance: float = 1.5
 
 
+DEFAULT_SETTINGS = Settings()
+
+
 class Pairing(NamedTuple):
     """One predicted signal and the observed peak holding most of its protons."""
 
@@ -132,7 +135,7 @@ def _groups(shifts: list[float], gap: float) -> int:
 
 
 def match(signals, peaks: tuple[Peak, ...], counts: tuple[int, ...], missing: int,
-          exchange_absent: bool, settings: Settings = Settings()) -> Match:
+          exchange_absent: bool, settings: Settings = DEFAULT_SETTINGS) -> Match:
     """Assign predicted signals to observed peaks.
 
     Parameters
