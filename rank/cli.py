@@ -8,6 +8,7 @@ from __future__ import annotations
 import argparse
 import sys
 from collections.abc import Sequence
+from pathlib import Path
 
 from .errors import InputError
 
@@ -67,7 +68,121 @@ def build_parser() -> argparse.ArgumentParser:
     iso.add_argument("--tally", action="store_true",
                      help="report on stderr how many structures each plausibility filter removed")
     iso.set_defaults(run=_run_isomers)
+    _add_identify(sub)
+    _add_bench(sub)
     return parser
+
+
+def _add_bench(sub) -> None:
+    ben = sub.add_parser("bench", help="run a known-answer set and report how often the truth ranks first")
+    ben.add_argument("file", metavar="FILE",
+                     help="tab-separated known answers: id, name, formula, smiles, solvent, peaks, source")
+    ben.add_argument("--only", action="append", default=[], metavar="ID", help="run only these ids (repeatable)")
+    ben.add_argument("--no-hints", action="store_true", help="do not narrow the isomer space with hints")
+    ben.add_argument("--workers", type=_positive_int, default=1, metavar="N", help="scoring processes (default 1)")
+    ben.add_argument("--fit", action="store_true",
+                     help="fit the confidence temperature on this set and print it with the calibration")
+    ben.set_defaults(run=_run_bench)
+
+
+def _run_bench(args: argparse.Namespace) -> int:
+    from .bench import fit_temperature, read_cases, reliability, run_case, summary
+    from .shortlist import temperature
+
+    cases = [c for c in read_cases(args.file) if not args.only or c.id in args.only]
+    if not cases:
+        raise InputError("no case left to run; check --only")
+    outcomes = []
+    print(f"{'id':<14} {'rank':>5} {'scored':>8} {'seconds':>8}  name")
+    for case in cases:
+        o = run_case(case, use_hints=not args.no_hints, workers=args.workers, ceiling=0)
+        outcomes.append(o)
+        rank = "-" if o.rank is None else str(o.rank)
+        print(f"{case.id:<14} {rank:>5} {o.scored:>8,} {o.seconds:>8.2f}  {case.name}", flush=True)
+    s = summary(outcomes)
+    print()
+    print(f"cases {s['cases']}: top-1 {s['top1']:.1%}, top-3 {s['top3']:.1%}, top-10 {s['top10']:.1%}, "
+          f"MRR {s['mrr']:.3f}")
+    print(f"candidates scored {s['scored_total']:,}; time per compound median {s['median_s']:.2f} s, "
+          f"max {s['max_s']:.2f} s")
+    misses = [o for o in outcomes if o.rank != 1]
+    if misses:
+        print("misses (true rank; best candidate; misfits true / best):")
+        for o in misses:
+            where = "never scored" if o.rank is None else f"rank {o.rank}"
+            true = "-" if o.true_misfit is None else f"{o.true_misfit:.3f}"
+            best = "-" if o.best_misfit is None else f"{o.best_misfit:.3f}"
+            print(f"  {o.case.id} {o.case.name}: {where}; best {o.best}; {true} / {best}")
+    t = fit_temperature(outcomes) if args.fit else temperature()
+    label = "fitted" if args.fit else "in use"
+    print(f"confidence temperature {label}: {t:.3f}; calibration of the top candidate's confidence:")
+    for span, n, conf, right in reliability(outcomes, t):
+        print(f"  confidence {span}: {n} cases, mean confidence {conf:.1%}, top-1 right {right:.1%}")
+    return 0
+
+
+def _add_identify(sub) -> None:
+    ide = sub.add_parser("identify", help="rank the isomers of a formula against a 1H peak list")
+    ide.add_argument("--formula", required=True, help="molecular formula of the unknown, e.g. C9H10O2")
+    ide.add_argument("--peaks", required=True, metavar="PEAKS",
+                     help="a peak file (.csv, .tsv, .json, .jdx) or an inline list such as "
+                          "'7.35-7.20 (m, 5H), 4.12 (q, J = 7.1 Hz, 2H), 2.05 (s, 3H)'")
+    ide.add_argument("--solvent", metavar="NAME", help="NMR solvent (default: the peak list's, else CDCl3)")
+    ide.add_argument("--field", type=float, metavar="MHZ", help="spectrometer frequency (default: the peak list's, else 400)")
+    ide.add_argument("--top", type=_positive_int, default=10, metavar="N", help="candidates to list (default 10)")
+    ide.add_argument("--candidates", metavar="FILE", help="score these structures (SMILES lines or SDF) instead of all isomers")
+    ide.add_argument("--require", action="append", default=[], metavar="SMARTS", help="candidates must match (repeatable)")
+    ide.add_argument("--forbid", action="append", default=[], metavar="SMARTS", help="candidates must not match (repeatable)")
+    ide.add_argument("--no-hints", action="store_true", help="do not narrow the isomer space with hints read from the peaks")
+    ide.add_argument("--keep-all-peaks", action="store_true", help="do not drop solvent, water and TMS signals")
+    ide.add_argument("--workers", type=_positive_int, default=1, metavar="N", help="scoring processes (default 1)")
+    ide.add_argument("--budget", type=_seconds, metavar="SECONDS", help="stop scoring after this long and say so")
+    ide.add_argument("--ceiling", type=_positive_int, default=None, metavar="N",
+                     help="refuse isomer spaces estimated above N structures (default 2,000,000; 0 = no limit)")
+    ide.add_argument("--json", metavar="PATH", help="write the short list as JSON ('-' for stdout, nothing else there)")
+    ide.add_argument("--csv", metavar="PATH", help="write the short list as CSV")
+    ide.add_argument("--report", metavar="PATH.html", help="write a self-contained HTML report")
+    ide.add_argument("--force", action="store_true", help="replace output files that exist")
+    ide.add_argument("--quiet", action="store_true", help="no progress line on stderr")
+    ide.set_defaults(run=_run_identify)
+
+
+def _run_identify(args: argparse.Namespace) -> int:
+    from .generate import DEFAULT_CEILING
+    from .report import csv_text, json_text, terminal_text, write_text_file
+    from .shortlist import Identifier
+
+    if args.top == 0:
+        raise InputError("--top must be at least 1")
+    if args.workers == 0:
+        raise InputError("--workers must be at least 1")
+    if args.field is not None and not 20 <= args.field <= 1500:
+        raise InputError("--field must be a spectrometer frequency in MHz, between 20 and 1500")
+    for path in (args.csv, args.report, None if args.json == "-" else args.json):
+        if path and Path(path).exists() and not args.force:
+            raise InputError(f"{path} exists; choose another name or pass --force to replace it")
+    identifier = Identifier(
+        top=args.top, solvent=args.solvent, field_mhz=args.field, require=args.require, forbid=args.forbid,
+        use_hints=not args.no_hints, workers=args.workers, budget=args.budget,
+        ceiling=DEFAULT_CEILING if args.ceiling is None else args.ceiling,
+        keep_all_peaks=args.keep_all_peaks, progress=not args.quiet and sys.stderr.isatty(),
+    )
+    result = identifier.identify(args.formula, args.peaks, args.candidates)
+    if args.json == "-":
+        sys.stdout.write(json_text(result))
+    else:
+        sys.stdout.write(terminal_text(result))
+        if args.json:
+            write_text_file(args.json, json_text(result), args.force)
+    if args.csv:
+        write_text_file(args.csv, csv_text(result), args.force)
+    if args.report:
+        from .html import report_html
+
+        write_text_file(args.report, report_html(result), args.force)
+    if not result.complete:
+        print("peakrank: the run stopped early; the list is incomplete", file=sys.stderr)
+    return 0
 
 
 def _run_isomers(args: argparse.Namespace) -> int:

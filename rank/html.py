@@ -1,0 +1,170 @@
+"""A self-contained HTML report of a short list: no network, no scripts, no external fonts.
+
+For each of the top candidates: its 2D structure (RDKit SVG) with every proton
+class in its own colour, the observed peaks as a stick spectrum against the
+predicted one in the same colours (ppm decreasing to the right, as spectra are
+drawn), the assignment with the increment arithmetic, and the misfit's parts.
+All text that came from the user is escaped.
+"""
+
+from __future__ import annotations
+
+from html import escape
+
+from rdkit import Chem
+from rdkit.Chem.Draw import rdMolDraw2D
+
+from .report import assignment_rows
+from .shortlist import CAUTION, Candidate, Shortlist
+
+PALETTE = ("#1f77b4", "#d62728", "#2ca02c", "#9467bd", "#ff7f0e", "#17becf", "#8c564b",
+           "#e377c2", "#bcbd22", "#7f7f7f", "#393b79", "#ad494a", "#637939", "#843c39")
+
+_STYLE = """
+body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;margin:2em auto;max-width:1100px;color:#222;padding:0 1em}
+h1{font-size:1.5em;margin-bottom:.2em} h2{font-size:1.2em;margin-top:2em;border-bottom:1px solid #ccc}
+.caution{background:#fff4e5;border:1px solid #f0a020;padding:.8em 1em;border-radius:4px}
+table{border-collapse:collapse;margin:.5em 0;font-size:.92em} td,th{border:1px solid #ddd;padding:.25em .5em;text-align:left}
+th{background:#f4f4f4} td.num{text-align:right;font-variant-numeric:tabular-nums}
+.card{display:flex;flex-wrap:wrap;gap:1em;align-items:flex-start}
+.swatch{display:inline-block;width:.9em;height:.9em;border-radius:2px;vertical-align:middle;margin-right:.3em}
+.muted{color:#666} code{font-size:.95em}
+"""
+
+
+def _color(i: int) -> str:
+    return PALETTE[i % len(PALETTE)]
+
+
+def _hex_rgb(color: str) -> tuple[float, float, float]:
+    return tuple(int(color[k:k + 2], 16) / 255 for k in (1, 3, 5))
+
+
+def structure_svg(candidate: Candidate, size: int = 300) -> str:
+    """The candidate drawn by RDKit, each proton class's atoms highlighted in its colour."""
+    mol = Chem.MolFromSmiles(candidate.smiles)
+    colors: dict[int, tuple[float, float, float]] = {}
+    for i, sig in enumerate(candidate.scored.signals):
+        for a in sig.atoms:
+            colors.setdefault(a, _hex_rgb(_color(i)))
+    drawer = rdMolDraw2D.MolDraw2DSVG(size, size)
+    opts = drawer.drawOptions()
+    opts.addAtomIndices = False
+    opts.clearBackground = False
+    rdMolDraw2D.PrepareAndDrawMolecule(drawer, mol, highlightAtoms=list(colors),
+                                       highlightAtomColors=colors, highlightBonds=[])
+    drawer.FinishDrawing()
+    svg = drawer.GetDrawingText()
+    return svg[svg.index("<svg"):]
+
+
+def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height: int = 220) -> str:
+    """Observed sticks above the axis, predicted sticks below, coloured by proton class."""
+    peaks = result.observation.peaks
+    signals = candidate.scored.signals
+    shifts = [p.shift for p in peaks] + [s.shift for s in signals]
+    high = max(10.0, max(shifts) + 0.5)
+    low = min(0.0, min(shifts) - 0.5)
+    left, right, mid = 40, width - 20, height / 2
+
+    def x(ppm: float) -> float:
+        return left + (high - ppm) / (high - low) * (right - left)
+
+    owner: dict[int, int] = {}
+    for p in candidate.scored.match.pairings:
+        if p.peak is not None:
+            owner.setdefault(p.peak, p.signal)
+    top_h = max([p.integral or 1 for p in peaks] + [s.n_h for s in signals])
+    scale = (mid - 30) / top_h
+    parts = [(f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" '
+              f'viewBox="0 0 {width} {height}" role="img" aria-label="stick spectrum">'),
+             f'<line x1="{left}" y1="{mid}" x2="{right}" y2="{mid}" stroke="#444"/>']
+    tick = int(high)
+    while tick >= low:
+        parts.append(f'<line x1="{x(tick):.1f}" y1="{mid}" x2="{x(tick):.1f}" y2="{mid + 4}" stroke="#444"/>'
+                     f'<text x="{x(tick):.1f}" y="{mid + 15}" font-size="10" text-anchor="middle">{tick}</text>')
+        tick -= 1
+    parts.append(f'<text x="{right}" y="{height - 4}" font-size="10" text-anchor="end">δ / ppm</text>'
+                 f'<text x="{left}" y="12" font-size="10">observed</text>'
+                 f'<text x="{left}" y="{height - 4}" font-size="10">predicted</text>')
+    for i, p in enumerate(peaks):
+        color = _color(owner[i]) if i in owner else "#999"
+        h = (p.integral or 1) * scale
+        if p.high - p.low > 0.01:
+            parts.append(f'<rect x="{x(p.high):.1f}" y="{mid - h:.1f}" width="{x(p.low) - x(p.high):.1f}" '
+                         f'height="{h:.1f}" fill="{color}" opacity="0.35"/>')
+        parts.append(f'<line x1="{x(p.shift):.1f}" y1="{mid}" x2="{x(p.shift):.1f}" y2="{mid - h:.1f}" '
+                     f'stroke="{color}" stroke-width="2"><title>{escape(p.label)}</title></line>')
+    for i, s in enumerate(signals):
+        h = s.n_h * scale
+        parts.append(f'<line x1="{x(s.shift):.1f}" y1="{mid}" x2="{x(s.shift):.1f}" y2="{mid + h:.1f}" '
+                     f'stroke="{_color(i)}" stroke-width="2"><title>{s.shift:.2f} ppm, {s.n_h}H '
+                     f'{escape(s.multiplicity)}</title></line>')
+    parts.append("</svg>")
+    return "".join(parts)
+
+
+def _candidate_section(c: Candidate, result: Shortlist) -> str:
+    parts = c.scored.match.parts
+    rows = []
+    for row in assignment_rows(c, result):
+        obs = "not observed" if row["observed_shift"] is None else f"{row['observed_shift']:.2f}"
+        obs_mult = escape(row["observed_multiplicity"] or "")
+        rows.append(
+            f"<tr><td><span class='swatch' style='background:{_color(row['signal'])}'></span>"
+            f"{escape(row['family'])}</td><td class='num'>{obs}</td><td>{obs_mult}</td>"
+            f"<td class='num'>{row['predicted_shift']:.2f}</td><td class='num'>{row['n_h']}</td>"
+            f"<td>{escape(row['predicted_multiplicity'])}</td><td class='num'>{row['z']:.1f}</td>"
+            f"<td><code>{escape(row['explanation'])}</code></td></tr>")
+    tie = " (tied)" if c.tied else ""
+    return (
+        f"<h2>Rank {c.rank}{tie}: <code>{escape(c.smiles)}</code></h2>"
+        f"<p class='muted'>InChIKey {escape(c.inchikey)} · misfit {c.misfit:.3f} · confidence "
+        f"{c.confidence:.1%} · {escape(c.reason)}</p>"
+        f"<div class='card'><div>{structure_svg(c)}</div><div>{stick_svg(c, result)}</div></div>"
+        "<table><tr><th>misfit part</th><th>value</th></tr>"
+        f"<tr><td>shift residuals</td><td class='num'>{parts.shift:.3f}</td></tr>"
+        f"<tr><td>integrals</td><td class='num'>{parts.integral:.3f}</td></tr>"
+        f"<tr><td>multiplicities</td><td class='num'>{parts.multiplicity:.3f}</td></tr>"
+        f"<tr><td>coupling constants</td><td class='num'>{parts.coupling:.3f}</td></tr>"
+        f"<tr><td>signal count</td><td class='num'>{parts.count:.3f}</td></tr>"
+        f"<tr><td>integral rounding</td><td class='num'>{c.scored.normalisation.error:.3f}</td></tr></table>"
+        "<table><tr><th>class</th><th>observed δ</th><th>obs.</th><th>predicted δ</th><th>nH</th>"
+        "<th>pred.</th><th>z</th><th>arithmetic</th></tr>" + "".join(rows) + "</table>"
+    )
+
+
+def report_html(result: Shortlist, title: str | None = None, shown: int = 5) -> str:
+    """The whole report as one HTML document."""
+    obs = result.observation
+    heading = escape(title or f"peakrank short list for {result.formula.hill}")
+    used = "".join(
+        f"<tr><td class='num'>{p.shift:.2f}</td><td>{escape(p.label)}</td>"
+        f"<td class='num'>{'' if p.integral is None else f'{p.integral:g}'}</td>"
+        f"<td>{escape(', '.join(f'{j:g}' for j in p.j))}</td></tr>" for p in obs.peaks)
+    dropped = "".join(f"<li>{escape(d.peak.label)}: {escape(d.reason)}</li>" for d in result.dropped)
+    hints = "".join(f"<li>{escape(h.name)} from {escape(h.evidence)}: removed about "
+                    f"{result.hinted.get(h.name, 0):,} structures</li>" for h in result.hints)
+    summary = "".join(
+        f"<tr><td class='num'>{c.rank}{'=' if c.tied else ''}</td><td><code>{escape(c.smiles)}</code></td>"
+        f"<td class='num'>{c.misfit:.3f}</td><td class='num'>{c.confidence:.1%}</td>"
+        f"<td>{escape(c.reason)}</td></tr>" for c in result.candidates)
+    state = "complete" if result.complete else "incomplete: the run stopped early and the truth may be missing"
+    body = (
+        f"<h1>{heading}</h1>"
+        f"<p class='caution'><strong>Caution.</strong> {escape(CAUTION)}</p>"
+        "<h2>Input</h2>"
+        f"<p>Formula <strong>{escape(result.formula.hill)}</strong>, DBE {result.formula.dbe}; "
+        f"solvent {escape(obs.solvent)}; {obs.field_mhz:g} MHz; integrals "
+        f"{escape(result.candidates[0].scored.normalisation.text if result.candidates else obs.normalisations[0].text)}.</p>"
+        "<table><tr><th>δ / ppm</th><th>peak</th><th>H</th><th>J / Hz</th></tr>" + used + "</table>"
+        + (f"<p>Dropped:</p><ul>{dropped}</ul>" if dropped else "<p>No peak dropped.</p>")
+        + (f"<p>Hints applied (turn off with --no-hints):</p><ul>{hints}</ul>" if hints else "")
+        + f"<p>{result.explored:,} candidates scored; search {escape(state)}.</p>"
+        "<h2>Short list</h2><table><tr><th>rank</th><th>SMILES</th><th>misfit</th><th>confidence</th>"
+        "<th>reason</th></tr>" + summary + "</table>"
+        + "".join(_candidate_section(c, result) for c in result.candidates[:shown])
+        + f"<p class='caution'>{escape(CAUTION)}</p>"
+    )
+    return ("<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
+            f"<title>{heading}</title><style>{_STYLE}</style></head><body>{body}</body></html>\n")

@@ -1,0 +1,150 @@
+"""Render a short list: terminal text, JSON and CSV (the HTML report is in ``rank/html.py``).
+
+Every number shown can be traced: a candidate's misfit is the sum of its parts,
+and each assigned signal carries the arithmetic of its predicted shift.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+from .errors import InputError
+from .shortlist import CAUTION, Candidate, Shortlist
+
+
+def assignment_rows(candidate: Candidate, result: Shortlist) -> list[dict]:
+    """Signal-by-signal assignment of one candidate, predicted against observed."""
+    s = candidate.scored
+    rows = []
+    for p in s.match.pairings:
+        sig = s.signals[p.signal]
+        peak = result.observation.peaks[p.peak] if p.peak is not None else None
+        rows.append({
+            "signal": p.signal,
+            "predicted_shift": round(sig.shift, 2),
+            "n_h": sig.n_h,
+            "predicted_multiplicity": sig.multiplicity,
+            "family": sig.family,
+            "exchangeable": sig.exchangeable,
+            "atoms": list(sig.atoms),
+            "sigma": sig.sigma,
+            "peak": p.peak,
+            "observed_shift": None if peak is None else peak.shift,
+            "observed_multiplicity": None if peak is None else peak.multiplicity,
+            "protons_in_peak": p.protons,
+            "z": round(p.z, 2),
+            "multiplicity_penalty": p.multiplicity_penalty,
+            "coupling_penalty": round(p.coupling_penalty, 3),
+            "explanation": sig.explanation,
+        })
+    return rows
+
+
+def to_json(result: Shortlist) -> dict:
+    """The short list in the documented JSON form."""
+    obs = result.observation
+    return {
+        "formula": result.formula.hill,
+        "dbe": result.formula.dbe,
+        "explored": result.explored,
+        "complete": result.complete,
+        "solvent": obs.solvent,
+        "field_mhz": obs.field_mhz,
+        "peaks_used": [_peak_json(p) for p in obs.peaks],
+        "peaks_dropped": [{**_peak_json(d.peak), "reason": d.reason} for d in result.dropped],
+        "normalisations": [{"counts": list(n.counts), "missing": n.missing, "error": round(n.error, 4)}
+                           for n in obs.normalisations],
+        "hints": [{"name": h.name, "evidence": h.evidence, "removed": result.hinted.get(h.name, 0)}
+                  for h in result.hints],
+        "candidates_file_skipped_lines": result.skipped_inputs,
+        "candidates_other_formula": result.other_formula,
+        "candidates": [
+            {
+                "rank": c.rank,
+                "smiles": c.smiles,
+                "inchikey": c.inchikey,
+                "misfit": c.misfit,
+                "confidence": round(c.confidence, 4),
+                "tied": c.tied,
+                "parts": c.scored.match.parts._asdict(),
+                "normalisation": {"counts": list(c.scored.normalisation.counts),
+                                  "missing": c.scored.normalisation.missing},
+                "reason": c.reason,
+                "assignment": assignment_rows(c, result),
+            }
+            for c in result.candidates
+        ],
+        "caution": CAUTION,
+    }
+
+
+def _peak_json(p) -> dict:
+    return {"shift": p.shift, "low": p.low, "high": p.high, "integral": p.integral,
+            "multiplicity": p.multiplicity, "j": list(p.j)}
+
+
+def write_text_file(path: str, text: str, force: bool) -> None:
+    """Write a file the user named; refuse to replace an existing one unless forced."""
+    target = Path(path)
+    if target.exists() and not force:
+        raise InputError(f"{path} exists; choose another name or pass --force to replace it")
+    if not target.parent.exists():
+        raise InputError(f"folder {target.parent} does not exist")
+    target.write_text(text, encoding="utf-8")
+
+
+def json_text(result: Shortlist) -> str:
+    return json.dumps(to_json(result), indent=2, ensure_ascii=False) + "\n"
+
+
+def csv_text(result: Shortlist) -> str:
+    frame = result.to_frame()
+    return frame.to_csv(index=False)
+
+
+def terminal_text(result: Shortlist, detail: int = 1) -> str:
+    """A table of the candidates, then the assignment of the best ``detail`` candidates."""
+    obs = result.observation
+    lines = [f"CAUTION: {CAUTION}", ""]
+    lines.append(f"formula {result.formula.hill} (DBE {result.formula.dbe}), solvent {obs.solvent}, "
+                 f"{obs.field_mhz:g} MHz")
+    lines.append("peaks used: " + "; ".join(f"{p.label} {p.integral:g}H" if p.integral else p.label
+                                             for p in obs.peaks))
+    for d in result.dropped:
+        lines.append(f"dropped: {d.peak.label} ({d.reason})")
+    norm = result.candidates[0].scored.normalisation if result.candidates else obs.normalisations[0]
+    lines.append(f"integrals: {norm.text}")
+    for h in result.hints:
+        removed = result.hinted.get(h.name, 0)
+        lines.append(f"hint: {h.name} from {h.evidence}; removed about {removed:,} structures "
+                     "(--no-hints turns hints off)")
+    if result.skipped_inputs:
+        lines.append(f"candidates file: {result.skipped_inputs} unreadable lines skipped")
+    if result.other_formula:
+        lines.append(f"candidates file: {result.other_formula} structures with another formula left out")
+    state = "complete" if result.complete else "INCOMPLETE (budget spent: the truth may be missing)"
+    lines.append(f"{result.explored:,} candidates scored; search {state}")
+    lines.append("")
+    if not result.candidates:
+        lines.append("no candidate fits the formula and the constraints")
+        return "\n".join(lines) + "\n"
+    width = max(len(c.smiles) for c in result.candidates)
+    lines.append(f"{'rank':>5}  {'SMILES':<{width}}  {'misfit':>7}  {'conf.':>6}  reason")
+    for c in result.candidates:
+        rank = f"{c.rank}{'=' if c.tied else ''}"
+        lines.append(f"{rank:>5}  {c.smiles:<{width}}  {c.misfit:7.3f}  {c.confidence:6.1%}  {c.reason}")
+    for c in result.candidates[:detail]:
+        lines.append("")
+        parts = c.scored.match.parts
+        lines.append(f"assignment of rank {c.rank}, {c.smiles}: misfit {c.misfit:.3f} = shift {parts.shift:.3f}"
+                     f" + integrals {parts.integral:.3f} + multiplicities {parts.multiplicity:.3f}"
+                     f" + J {parts.coupling:.3f} + signal count {parts.count:.3f}"
+                     + (f" + rounding {c.scored.normalisation.error:.3f}" if c.scored.normalisation.error else ""))
+        lines.append(f"  {'obs δ':>6} {'mult':<5} {'pred δ':>6} {'nH':>3} {'mult':<5} {'z':>5}  arithmetic")
+        for row in assignment_rows(c, result):
+            obs_shift = "absent" if row["observed_shift"] is None else f"{row['observed_shift']:.2f}"
+            obs_mult = row["observed_multiplicity"] or "-"
+            lines.append(f"  {obs_shift:>6} {obs_mult:<5} {row['predicted_shift']:6.2f} {row['n_h']:>3} "
+                         f"{row['predicted_multiplicity']:<5} {row['z']:5.1f}  {row['explanation']}")
+    return "\n".join(lines) + "\n"
