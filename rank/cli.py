@@ -70,7 +70,25 @@ def build_parser() -> argparse.ArgumentParser:
     iso.set_defaults(run=_run_isomers)
     _add_identify(sub)
     _add_bench(sub)
+    _add_demo(sub)
     return parser
+
+
+def _add_demo(sub) -> None:
+    dem = sub.add_parser("demo", help="identify the demo scenario's four unknowns and write their reports")
+    dem.add_argument("--out", default="peakrank-demo-reports", metavar="DIR",
+                     help="folder for the reports (a new one: -2, -3, ... is added if it exists)")
+    dem.add_argument("--workers", type=_positive_int, default=1, metavar="N", help="scoring processes (default 1)")
+    dem.set_defaults(run=_run_demo)
+
+
+def _run_demo(args: argparse.Namespace) -> int:
+    from .demo import run_demo
+
+    if args.workers == 0:
+        raise InputError("--workers must be at least 1")
+    run_demo(Path(args.out), workers=args.workers, echo=lambda text: print(text, flush=True))
+    return 0
 
 
 def _add_bench(sub) -> None:

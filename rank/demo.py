@@ -1,0 +1,64 @@
+"""The demo scenario: four invented unknowns, each identified end to end.
+
+The samples, their formulas and peak files are in ``demo/`` (see its README).
+Reports go to a new folder; an existing folder is never written into.
+"""
+
+from __future__ import annotations
+
+import csv
+from dataclasses import dataclass
+from pathlib import Path
+
+from .html import report_html
+from .report import terminal_text
+from .shortlist import Identifier, Shortlist
+
+_SOURCE_DEMO = Path(__file__).resolve().parent.parent / "demo"
+_PACKAGED_DEMO = Path(__file__).resolve().parent / "demo"
+
+
+@dataclass(frozen=True)
+class Unknown:
+    sample: str
+    formula: str
+    peaks: Path
+    note: str
+
+
+def demo_dir() -> Path:
+    return _SOURCE_DEMO if _SOURCE_DEMO.is_dir() else _PACKAGED_DEMO
+
+
+def unknowns() -> list[Unknown]:
+    """The demo's samples from ``demo/unknowns.tsv``."""
+    folder = demo_dir()
+    lines = [ln for ln in (folder / "unknowns.tsv").read_text(encoding="utf-8").splitlines()
+             if ln.strip() and not ln.startswith("#")]
+    return [Unknown(r["sample"], r["formula"], folder / r["peaks"], r["note"])
+            for r in csv.DictReader(lines, delimiter="\t")]
+
+
+def fresh_folder(base: Path) -> Path:
+    """``base``, or ``base-2``, ``base-3``, ... : the first name not yet taken."""
+    candidate, n = base, 1
+    while candidate.exists():
+        n += 1
+        candidate = base.with_name(f"{base.name}-{n}")
+    return candidate
+
+
+def run_demo(out: Path, top: int = 5, workers: int = 1, echo=print) -> list[tuple[Unknown, Shortlist, Path]]:
+    """Identify every demo unknown, print its short list and write its HTML report into ``out``."""
+    folder = fresh_folder(out)
+    folder.mkdir(parents=True)
+    done = []
+    for u in unknowns():
+        echo(f"=== {u.sample}: {u.note} ({u.formula}, peaks from {u.peaks.name}) ===")
+        result = Identifier(top=top, workers=workers).identify(u.formula, str(u.peaks))
+        echo(terminal_text(result))
+        path = folder / f"{u.sample}.html"
+        path.write_text(report_html(result, title=f"{u.sample}: {u.note}"), encoding="utf-8")
+        done.append((u, result, path))
+    echo(f"reports written to {folder}/")
+    return done
