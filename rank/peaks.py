@@ -151,6 +151,11 @@ def drop_solvent_signals(peaks: tuple[Peak, ...], solvent: Solvent) -> tuple[tup
     Only sharp or broad singlets (or peaks given without a multiplicity) close to
     a tabulated value are dropped; a multiplet or a range that covers the value
     is kept, since it can hold the compound's own signals (common practice).
+    Water wanders with temperature and concentration, so a broad singlet or one
+    without an H count is taken as water anywhere in the table's wider window;
+    a sharp singlet that carries an H count is the compound's own unless it sits
+    on the tabulated value within the residual tolerance (cyclohexane at 1.43
+    and tert-butyl groups near 1.45 in CDCl3, methoxy singlets near 3.2 in DMSO-d6).
     """
     kept, dropped = [], []
     for p in peaks:
@@ -162,13 +167,20 @@ def drop_solvent_signals(peaks: tuple[Peak, ...], solvent: Solvent) -> tuple[tup
         elif simple and p.multiplicity != "m" and abs(p.shift - solvent.residual) <= solvent.tolerance_residual or (p.multiplicity == solvent.residual_multiplicity and single
               and abs(p.shift - solvent.residual) <= solvent.tolerance_residual):
             reason = f"residual {solvent.id}"
-        elif simple and p.multiplicity != "m" and abs(p.shift - solvent.water) <= solvent.tolerance_water:
+        elif simple and p.multiplicity != "m" and _looks_like_water(p, solvent):
             reason = f"water in {solvent.id}"
         if reason:
             dropped.append(Dropped(p, reason))
         else:
             kept.append(p)
     return tuple(kept), tuple(dropped)
+
+
+def _looks_like_water(p: Peak, solvent: Solvent) -> bool:
+    off = abs(p.shift - solvent.water)
+    if off <= solvent.tolerance_residual:
+        return True
+    return off <= solvent.tolerance_water and (p.integral is None or p.broad)
 
 
 # --------------------------------------------------------------- reading -----
