@@ -192,8 +192,10 @@ def normalise_multiplicity(text: str) -> str:
     t = _ALIASES.get(t, t)
     if t in _SIMPLE or t in ("m", "br s", "br") or _COMPOUND.match(t):
         return t
-    if t.startswith("br ") and normalise_multiplicity(t[3:]) in _SIMPLE:
-        return "br s" if t[3:] == "s" else normalise_multiplicity(t[3:])
+    if t.startswith("br "):
+        inner = _ALIASES.get(t[3:], t[3:])
+        if inner in _SIMPLE or inner == "m" or _COMPOUND.match(inner):
+            return "br s" if inner == "s" else inner
     raise InputError(f"multiplicity {text!r} not understood; use s, d, t, q, quint, sext, sept, m, br s, dd, dt, ...")
 
 
@@ -275,6 +277,9 @@ def parse_peak_text(text: str) -> Spectrum:
     return Spectrum(tuple(peaks), field, solvent)
 
 
+_TEMPERATURE = re.compile(rf"{_NUMBER}\s*(?:[°º]\s*C|K)", re.IGNORECASE)
+
+
 def _header_facts(inside: str) -> tuple[float | None, str | None]:
     field = solvent = None
     for part in re.split(r"[,;]", inside):
@@ -282,6 +287,8 @@ def _header_facts(inside: str) -> tuple[float | None, str | None]:
         m = re.match(r"(\d+(?:\.\d+)?)\s*MHz", part, re.IGNORECASE)
         if m:
             field = float(m.group(1))
+        elif _TEMPERATURE.fullmatch(part):
+            continue
         elif part:
             solvent = find_solvent(part).id
     return field, solvent
@@ -289,7 +296,8 @@ def _header_facts(inside: str) -> tuple[float | None, str | None]:
 
 def _inside(inside: str) -> tuple[float | None, str, tuple[float, ...]]:
     integral, mult, j = None, "m", ()
-    jm = re.search(r"J\s*(?:\([^)]*\))?\s*=\s*((?:" + _NUMBER + r"\s*(?:,|and|&)?\s*)+)(?:\s*Hz)?", inside)
+    coupling = _NUMBER + r"(?![\d.])(?!\s*H(?!z))"
+    jm = re.search(r"J\s*(?:\([^)]*\))?\s*=\s*((?:" + coupling + r"\s*(?:,|and|&)?\s*)+)(?:\s*Hz)?", inside)
     if jm:
         j = tuple(_number(x) for x in re.findall(_NUMBER, jm.group(1)))
         inside = inside[: jm.start()] + "," + inside[jm.end():]
