@@ -393,8 +393,12 @@ def _read_json(path: Path) -> Spectrum:
         peaks.append(_peak_from_fields(str(shift), item.get("integral", item.get("n_h")),
                                        item.get("multiplicity"), item.get("j")))
     field = data.get("field_mhz") if isinstance(data, dict) else None
+    try:
+        field = float(field) if field else None
+    except (TypeError, ValueError):
+        raise InputError(f"{path}: field_mhz {field!r} is not a number of MHz") from None
     solvent = data.get("solvent") if isinstance(data, dict) else None
-    return Spectrum(tuple(peaks), float(field) if field else None, find_solvent(solvent).id if solvent else None)
+    return Spectrum(tuple(peaks), field, find_solvent(solvent).id if solvent else None)
 
 
 def _find_label(node: object, label: str) -> list[str] | None:
@@ -435,11 +439,8 @@ def _read_jcamp(path: Path) -> Spectrum:
     field = float(freq[0]) if freq else None
     if "HZ" in xunits and not field:
         raise InputError(f"{path}: shifts in Hz need ##.OBSERVE FREQUENCY")
-    mults: dict[float, str] = {}
     assignments = _find_label(dic, "PEAKASSIGNMENTS")
-    if assignments:
-        for m in re.finditer(r"\(\s*(" + _NUMBER + r")\s*,[^,<]*,?\s*<([^>]*)>", assignments[0]):
-            mults[round(_number(m.group(1)), 3)] = m.group(2)
+    mults = _assigned_multiplicities(assignments[0]) if assignments else {}
     peaks = []
     for line in rows.splitlines():
         numbers = re.findall(_NUMBER, line)
@@ -449,6 +450,27 @@ def _read_jcamp(path: Path) -> Spectrum:
             peaks.append(_peak_from_fields(f"{shift:.4f}", y, mults.get(round(x, 3)), None))
     solvent = _find_label(dic, ".SOLVENTNAME")
     return Spectrum(tuple(peaks), field, find_solvent(solvent[0]).id if solvent else None)
+
+
+def _assigned_multiplicities(text: str) -> dict[float, str]:
+    """Multiplicities by X from ##PEAK ASSIGNMENTS=(XYMA) or (XYMWA).
+
+    Each entry is ``(X, Y, M, <A>)``: M the multiplicity, A the assignment in
+    angle brackets; Y, W and M may be left empty.  (XYA) and (XYWA) carry no
+    multiplicity (JCAMP-DX, R. S. McDonald, P. A. Wilks, Appl. Spectrosc. 1988,
+    42, 151, doi:10.1366/0003702884428734; NMR: Davies, Lampen 1993).
+    """
+    form, _, rows = text.partition("\n")
+    names = re.sub(r"[^A-Z]", "", form.upper())
+    if "M" not in names:
+        return {}
+    where = names.index("M")
+    found = {}
+    for entry in re.finditer(r"\(([^()<]*)(?:<[^>]*>)?\s*\)", rows):
+        values = [v.strip() for v in entry.group(1).split(",")]
+        if len(values) > where and values[where] and re.fullmatch(_NUMBER, values[0]):
+            found[round(_number(values[0]), 3)] = values[where]
+    return found
 
 
 def read_peaks(source: str) -> Spectrum:
