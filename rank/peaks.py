@@ -233,7 +233,7 @@ def _make_peak(a: float, b: float | None, integral: float | None, mult: str, j: 
 _HEADER = re.compile(r"^\s*(?:1H|¹H|\^1H|H)?[\s-]*NMR\s*(?:\(([^)]*)\))?\s*[:,]?\s*", re.IGNORECASE)
 _DELTA = re.compile(r"^\s*(?:δ|delta|d)\s*(?:\(?\s*ppm\s*\)?)?\s*[:=]?\s*", re.IGNORECASE)
 _ENTRY = re.compile(
-    rf"\s*({_NUMBER})(?:{_DASH}({_NUMBER}))?\s*(?:\(([^()]*)\))?\s*(?:[,;]|$)"
+    rf"\s*({_NUMBER})(?:{_DASH}({_NUMBER}))?\s*(?:\(((?:[^()]|\([^()]*\))*)\))?\s*(?:[,;]|$)"
 )
 
 
@@ -456,9 +456,10 @@ def _assigned_multiplicities(text: str) -> dict[float, str]:
     """Multiplicities by X from ##PEAK ASSIGNMENTS=(XYMA) or (XYMWA).
 
     Each entry is ``(X, Y, M, <A>)``: M the multiplicity, A the assignment in
-    angle brackets; Y, W and M may be left empty.  (XYA) and (XYWA) carry no
-    multiplicity (JCAMP-DX, R. S. McDonald, P. A. Wilks, Appl. Spectrosc. 1988,
-    42, 151, doi:10.1366/0003702884428734; NMR: Davies, Lampen 1993).
+    angle brackets; Y, W and M may be left empty, and an M written in angle
+    brackets is read too.  (XYA) and (XYWA) carry no multiplicity (JCAMP-DX,
+    R. S. McDonald, P. A. Wilks, Appl. Spectrosc. 1988, 42, 151; for NMR,
+    Davies, Lampen 1993).
     """
     form, _, rows = text.partition("\n")
     names = re.sub(r"[^A-Z]", "", form.upper())
@@ -466,8 +467,8 @@ def _assigned_multiplicities(text: str) -> dict[float, str]:
         return {}
     where = names.index("M")
     found = {}
-    for entry in re.finditer(r"\(([^()<]*)(?:<[^>]*>)?\s*\)", rows):
-        values = [v.strip() for v in entry.group(1).split(",")]
+    for entry in re.finditer(r"\(((?:[^()<]|<[^>]*>)*)\)", rows):
+        values = [v.strip().strip("<>").strip() for v in re.split(r",(?![^<]*>)", entry.group(1))]
         if len(values) > where and values[where] and re.fullmatch(_NUMBER, values[0]):
             found[round(_number(values[0]), 3)] = values[where]
     return found
