@@ -71,6 +71,7 @@ def build_parser() -> argparse.ArgumentParser:
     _add_identify(sub)
     _add_bench(sub)
     _add_demo(sub)
+    _add_predict(sub)
     return parser
 
 
@@ -231,6 +232,42 @@ def _run_isomers(args: argparse.Namespace) -> int:
     if not stream.complete_run:
         print(f"peakrank: time budget of {args.budget:g} s spent; the list is incomplete",
               file=sys.stderr)
+    return 0
+
+
+def _add_predict(sub) -> None:
+    pre = sub.add_parser("predict", help="predict the 1H NMR signals of a structure, with their arithmetic")
+    pre.add_argument("smiles", metavar="SMILES", help="the structure, e.g. 'CCOC(C)=O' (quote it in the shell)")
+    pre.add_argument("--solvent", default="CDCl3", metavar="NAME", help="NMR solvent (default CDCl3)")
+    pre.add_argument("--field", type=float, default=400.0, metavar="MHZ",
+                     help="spectrometer frequency, judges first-order multiplets (default 400)")
+    pre.add_argument("--json", metavar="PATH", help="write the signals as JSON ('-' for stdout, nothing else there)")
+    pre.add_argument("--force", action="store_true", help="replace the --json file if it exists")
+    pre.set_defaults(run=_run_predict)
+
+
+def _run_predict(args: argparse.Namespace) -> int:
+    import json
+
+    from .predict import Predictor, parse_smiles, signal_table
+
+    if args.json and args.json != "-" and Path(args.json).exists() and not args.force:
+        raise InputError(f"{args.json} exists; choose another name or pass --force to replace it")
+    predictor = Predictor(args.solvent, args.field)
+    signals = predictor.predict(parse_smiles(args.smiles))
+    doc = {"smiles": args.smiles, "solvent": predictor.solvent_id, "field_mhz": args.field,
+           "signals": [s.to_json() for s in signals]}
+    text = json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
+    if args.json == "-":
+        sys.stdout.write(text)
+        return 0
+    print(f"{args.smiles}  ({predictor.solvent_id}, {args.field:g} MHz)")
+    sys.stdout.write(signal_table(signals))
+    if args.json:
+        try:
+            Path(args.json).write_text(text, encoding="utf-8")
+        except OSError as exc:
+            raise InputError(f"cannot write {args.json}: {exc.strerror}; choose another path") from None
     return 0
 
 
