@@ -48,7 +48,7 @@ from rdkit import Chem, RDLogger
 
 from .errors import InputError
 from .peaks import find_solvent
-from .perceive import SP3_FAMILIES, Graph, Perception, _Draft, perceive
+from .perceive import EXCHANGEABLE, SP3_FAMILIES, Graph, Perception, _Draft, perceive
 from .tables import read_table
 
 RDLogger.DisableLog("rdApp.*")
@@ -423,8 +423,12 @@ class _Run:
         alphas = []
         for x in g.bonds[c]:
             row = self.alkyl.get((c, x))
-            if row is not None and row.values[t]:
+            if row is None:
+                continue
+            if row.values[t]:
                 alphas.append((row.values[t], row))
+            else:
+                used.append(row)  # a zero increment (alkyl) or an untabulated substituent
         alphas.sort(key=lambda vr: -vr[0])
         damp = site.get(("attenuate_alpha", c))
         for k, (value, row) in enumerate(alphas):
@@ -514,7 +518,7 @@ class _Run:
                     continue
                 if row.values[dist - 1]:
                     terms.append(Term(f"{where[dist - 1]} {row.label}", row.values[dist - 1]))
-                    used.append(row)
+                used.append(row)
         return _Shift(terms, used, d.family)
 
     def _special_shift(self, d: _Draft) -> _Shift:
@@ -528,7 +532,8 @@ class _Run:
 
     def _solvent_term(self, fam: str, target: str) -> tuple[Term | None, float, str | None]:
         table, sid = _solvent_shifts(), self.solvent.id
-        for key in (target, fam, "*"):
+        # exchangeable H move by their own rows only; the family and * rows describe C-H
+        for key in (target,) if fam in EXCHANGEABLE else (target, fam, "*"):
             found = table.get((sid, key))
             if found is not None:
                 delta, extra = found
@@ -593,9 +598,10 @@ class _Run:
             term, solvent_extra, solvent_key = self._solvent_term(d.family, s.target)
             terms = _tidy(s.terms + ([term] if term else []))
             shift = round(sum(t.value for t in terms), 2)
-            spread = [sigma_table.get(d.family, 0.5), solvent_extra, *(r.sigma_extra for r in s.used)]
+            distinct = {r.key: r for r in s.used}   # a row used twice adds its doubt once
+            spread = [sigma_table.get(d.family, 0.5), solvent_extra, *(r.sigma_extra for r in distinct.values())]
             sigma = round(math.sqrt(sum(x * x for x in spread)), 2)
-            keys = tuple(dict.fromkeys([r.key for r in s.used] + ([solvent_key] if solvent_key else [])))
+            keys = tuple(distinct) + ((solvent_key,) if solvent_key else ())
             shifts.append(shift)
             rows.append((terms, sigma, s.shift_range, keys))
         out = []
