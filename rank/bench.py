@@ -63,7 +63,7 @@ def read_cases(path: str) -> list[Case]:
         mol = Chem.MolFromSmiles(r["smiles"])
         if mol is None:
             raise InputError(f"{path}: row {r['id']}: SMILES {r['smiles']!r} is not valid")
-        cases.append(Case(r["id"], r["name"], r["formula"], Chem.MolToSmiles(mol),
+        cases.append(Case(r["id"], r["name"], r["formula"], Chem.MolToSmiles(mol, isomericSmiles=False),
                           r["solvent"] or "CDCl3", r["peaks"], r["source"]))
     return cases
 

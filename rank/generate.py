@@ -432,9 +432,11 @@ class IsomerStream:
         mol = build_molecule(kinds, record)
         if mol is None:
             return None
-        smiles = Chem.MolToSmiles(mol)
-        if record[-1] and not _is_kekule_representative(mol, smiles, kinds, record):
-            return None
+        smiles = None
+        if record[-1]:
+            smiles = Chem.MolToSmiles(mol)
+            if not _is_kekule_representative(mol, smiles, kinds, record):
+                return None
         if not self.complete:
             for f in plausibility_filters():
                 if mol.HasSubstructMatch(f.pattern):
@@ -448,7 +450,7 @@ class IsomerStream:
             if not mol.HasSubstructMatch(pattern):
                 self.hinted[name] += 1
                 return None
-        return Isomer(smiles, mol)
+        return Isomer(smiles or Chem.MolToSmiles(mol), mol)
 
 
 def _type_key(t: AtomType) -> tuple:

@@ -1,10 +1,10 @@
 """Hints read from an observed spectrum that narrow the isomer space.
 
-A hint is a claim about the structure that a chemist reads off the peaks: a
-sharp 3H signal at high field is a methyl group, H between 6.5 and 8.6 ppm sit
-on sp2 carbons, a sharp 1H signal near 9.8 ppm is an aldehyde.  Hints are rules
-of thumb (common practice), not laws, so every hint the run applies is reported
-with what it removed, and ``--no-hints`` turns them off.
+A hint is a claim a chemist reads off the peaks: a sharp 3H signal at high field
+is a methyl group, a 2H quartet with a 3H triplet is an ethyl group, two 2H
+doublets in the aromatic region are a para-disubstituted ring.  Hints are rules
+of thumb (common practice, ``rules/hints.tsv``), not laws, so every applied
+hint is reported with what it removed, and ``--no-hints`` turns them off.
 
 A hint acts at one of two levels:
 
@@ -14,14 +14,16 @@ A hint acts at one of two levels:
   predicted.
 
 >>> from rank.peaks import parse_peak_text
->>> [h.name for h in read_hints(parse_peak_text("2.10 (s, 3H), 1.20 (t, 3H)").peaks, (3, 3))]
-['methyl groups']
+>>> peaks = parse_peak_text("4.12 (q, J = 7.1 Hz, 2H), 2.05 (s, 3H), 1.26 (t, J = 7.1 Hz, 3H)").peaks
+>>> [h.name for h in read_hints(peaks, (2, 3, 3))]
+['methyl groups', 'ethyl group']
 """
 
 from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from functools import cache
 
 from rdkit import Chem
 
@@ -55,28 +57,91 @@ class Hint:
 
 
 @dataclass(frozen=True)
-class _Rule:
-    id: str
+class _Window:
     low: float
     high: float
     multiplicities: tuple[str, ...]
+    n_h: tuple[int, ...]
+
+    def fits(self, peak: Peak, n: int) -> bool:
+        if peak.broad or not self.low <= peak.shift <= self.high:
+            return False
+        if self.multiplicities and peak.multiplicity not in self.multiplicities:
+            return False
+        return not self.n_h or n in self.n_h
+
+
+@dataclass(frozen=True)
+class _Rule:
+    id: str
+    name: str
+    kind: str
+    first: _Window
+    second: _Window | None
     h_per_group: int
     carbon_h: int | None
+    max_j: float | None
     smarts: str | None
-    name: str
 
 
-def _rules() -> list[_Rule]:
-    rows = []
+def _split(text: str) -> tuple[str, ...]:
+    return tuple(x.strip() for x in text.split(",") if x.strip())
+
+
+@cache
+def hint_rules() -> tuple[_Rule, ...]:
+    """The rows of ``rules/hints.tsv``."""
+    rules = []
     for r in read_table("hints"):
-        rows.append(_Rule(
-            r["id"], float(r["low"]), float(r["high"]),
-            tuple(m.strip() for m in r["multiplicities"].split(",") if m.strip()),
-            int(r["h_per_group"]),
+        first = _Window(float(r["low"]), float(r["high"]), _split(r["multiplicities"]),
+                        tuple(int(x) for x in _split(r["n_h"])))
+        second = None
+        if r["low2"]:
+            second = _Window(float(r["low2"]), float(r["high2"]), _split(r["multiplicities2"]),
+                             tuple(int(x) for x in _split(r["n_h2"])))
+        rules.append(_Rule(
+            r["id"], r["name"], r["kind"], first, second,
+            int(r["h_per_group"]) if r["h_per_group"] else 0,
             int(r["carbon_h"]) if r["carbon_h"] else None,
-            r["smarts"] or None, r["name"],
+            float(r["max_j"]) if r["max_j"] else None,
+            r["smarts"] or None,
         ))
-    return rows
+    return tuple(rules)
+
+
+def _same_j(a: Peak, b: Peak) -> bool:
+    if not a.j or not b.j:
+        return True
+    return any(abs(x - y) <= 0.7 for x in a.j for y in b.j)
+
+
+def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int]) -> Hint | None:
+    pairs = list(zip(peaks, counts))
+    if rule.kind == "count":
+        used = [(p, n) for p, n in pairs if rule.first.fits(p, n)]
+        if not used:
+            return None
+        groups = sum(n // rule.h_per_group for _, n in used)
+        return Hint(rule.name, ", ".join(p.label for p, _ in used), rule.carbon_h, groups)
+    if rule.kind == "peak":
+        used = [p for p, n in pairs if rule.first.fits(p, n)]
+        return Hint(rule.name, used[0].label, smarts=rule.smarts) if used else None
+    if rule.kind == "pair":
+        for i, (a, n) in enumerate(pairs):
+            if not rule.first.fits(a, n):
+                continue
+            for j, (b, m) in enumerate(pairs):
+                if i != j and rule.second.fits(b, m) and _same_j(a, b):
+                    return Hint(rule.name, f"{a.label} with {b.label}", smarts=rule.smarts)
+        return None
+    if rule.kind == "total":
+        inside = [(p, n) for p, n in pairs if rule.first.low <= p.shift <= rule.first.high and not p.broad]
+        if not inside or sum(n for _, n in inside) not in rule.first.n_h:
+            return None
+        if rule.max_j is not None and any(j > rule.max_j for p, _ in inside for j in p.j):
+            return None
+        return Hint(rule.name, ", ".join(p.label for p, _ in inside), smarts=rule.smarts)
+    raise ValueError(f"rules/hints.tsv row {rule.id}: unknown kind {rule.kind!r}")
 
 
 def read_hints(peaks: Sequence[Peak], counts: Sequence[int]) -> list[Hint]:
@@ -85,26 +150,9 @@ def read_hints(peaks: Sequence[Peak], counts: Sequence[int]) -> list[Hint]:
     Parameters
     ----------
     peaks : observed peaks (solvent signals dropped)
-    counts : H per peak from the chosen normalisation; all 0 when unknown, and
-        then only hints that need no integral apply.
+    counts : H per peak from the chosen normalisation; all 0 when the list had
+        no integrals, and then no hint applies (every hint rests on H counts).
     """
-    hints = []
-    for rule in _rules():
-        used, groups = [], 0
-        for peak, n in zip(peaks, counts):
-            if peak.broad or not (rule.low <= peak.shift <= rule.high):
-                continue
-            if rule.multiplicities and peak.multiplicity not in rule.multiplicities:
-                continue
-            if rule.h_per_group and (n == 0 or n % rule.h_per_group):
-                continue
-            used.append(peak)
-            groups += n // rule.h_per_group if rule.h_per_group else 1
-        if not used:
-            continue
-        evidence = ", ".join(p.label for p in used)
-        if rule.carbon_h is not None:
-            hints.append(Hint(rule.name, evidence, rule.carbon_h, groups))
-        if rule.smarts:
-            hints.append(Hint(rule.name, evidence, smarts=rule.smarts))
-    return hints
+    if not any(counts):
+        return []
+    return [h for h in (_apply(rule, peaks, counts) for rule in hint_rules()) if h is not None]

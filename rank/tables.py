@@ -27,6 +27,9 @@ def _load(name: str) -> tuple[tuple[str, ...], tuple[tuple[str, ...], ...]]:
     body = [ln for ln in lines if not ln.startswith("#")]
     rows = list(csv.reader(body, delimiter="\t", quoting=csv.QUOTE_NONE))
     header, data = tuple(rows[0]), rows[1:]
+    for r in data:
+        if len(r) > len(header):
+            raise ValueError(f"rules/{name}.tsv: row {r[0]!r} has {len(r)} fields, the header {len(header)}")
     fixed = tuple(tuple(r + [""] * (len(header) - len(r))) for r in data)
     return header, fixed
 
