@@ -63,6 +63,9 @@ CIS_TO_H = -1
 DIASTEREOTOPIC_REACH = 2
 """A CH2 at most this many bonds from a stereocentre is marked diastereotopic."""
 
+CIS_RING_MAX = 7
+"""Largest ring in which an endocyclic double bond is taken as cis when the molecule gives no E/Z."""
+
 _STEREO_CIS = (Chem.BondStereo.STEREOCIS, Chem.BondStereo.STEREOZ)
 _STEREO_SET = (
     Chem.BondStereo.STEREOCIS, Chem.BondStereo.STEREOTRANS,
@@ -364,7 +367,7 @@ def _cis_to_single_h(g: Graph, a: int, b: int) -> int:
         if ra_cis_sb:
             return next((atom for _, atom in sides if atom != sb), CIS_TO_H)
         return sb
-    ring = next((r for r in g.rings if a in r and b in r and ra in r and len(r) < 8), None)
+    ring = next((r for r in g.rings if a in r and b in r and ra in r and len(r) <= CIS_RING_MAX), None)
     if ring is not None:
         # ring atoms are cis across an endocyclic double bond of a small ring
         ring_side = next((atom for _, atom in sides if atom in ring), None)

@@ -570,7 +570,8 @@ class _Run:
                 return "m", js
         if params["ring_sp3_multiplet"] and d.family in SP3_FAMILIES:
             a = d.sites[0].atom
-            ring = next((r for r in g.rings if a in r and 5 <= len(r) <= 8), None)
+            low, high = params["ring_sp3_min_size"], params["ring_sp3_max_size"]
+            ring = next((r for r in g.rings if a in r and low <= len(r) <= high), None)
             if ring is not None and any(
                 self.p.drafts[c.signal].family in SP3_FAMILIES
                 and any(s.atom in ring for s in self.p.drafts[c.signal].sites) for c in resolved
