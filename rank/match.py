@@ -28,6 +28,7 @@ candidate predicts more resolved signals than were seen.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cache
 from itertools import pairwise
 from typing import NamedTuple
 
@@ -95,6 +96,7 @@ def _distance(signal_shift: float, peak: Peak) -> float:
     return min(abs(signal_shift - peak.low), abs(signal_shift - peak.high))
 
 
+@cache
 def multiplicity_penalty(observed: str, predicted: str, exchangeable: bool) -> float:
     """0 when the observed pattern fits the predicted first-order pattern, up to 1.
 
@@ -163,29 +165,30 @@ def match(signals, peaks: tuple[Peak, ...], counts: tuple[int, ...], missing: in
         absent = missing
     cols = [p for p, c in enumerate(capacity) for _ in range(c)] + [None] * absent
 
-    pen_mult = np.zeros((len(signals), len(peaks)))
-    pen_j = np.zeros((len(signals), len(peaks)))
-    z2 = np.zeros((len(signals), len(peaks)))
-    for i, s in enumerate(signals):
-        for p, peak in enumerate(peaks):
-            z = _distance(s.shift, peak) / s.sigma
-            z2[i, p] = min(z * z, settings.z_cap)
-            pen_mult[i, p] = multiplicity_penalty(peak.multiplicity, s.multiplicity, s.exchangeable)
-            pen_j[i, p] = coupling_penalty(peak.j, s.j, settings.j_tolerance)
+    n_sig, n_peaks = len(signals), len(peaks)
+    shifts = np.array([sg.shift for sg in signals])
+    sigmas = np.array([sg.sigma for sg in signals])
+    lows = np.array([pk.low for pk in peaks])
+    highs = np.array([pk.high for pk in peaks])
+    distance = np.maximum(np.maximum(lows[None, :] - shifts[:, None], shifts[:, None] - highs[None, :]), 0.0)
+    z2 = np.minimum((distance / sigmas[:, None]) ** 2, settings.z_cap)
+    pen_mult = np.array([[multiplicity_penalty(pk.multiplicity, sg.multiplicity, sg.exchangeable)
+                          for pk in peaks] for sg in signals]).reshape(n_sig, n_peaks)
+    pen_j = np.array([[coupling_penalty(pk.j, sg.j, settings.j_tolerance) if pk.j and sg.j else 0.0
+                       for pk in peaks] for sg in signals]).reshape(n_sig, n_peaks)
+    exchangeable = np.array([sg.exchangeable for sg in signals])
+    n_per = np.array([sg.n_h for sg in signals], dtype=float)
 
-    cost = np.empty((n_h, len(cols)))
-    for r, i in enumerate(rows):
-        s = signals[i]
-        per_proton = (settings.w_multiplicity * pen_mult[i] + settings.w_coupling * pen_j[i]) / s.n_h
-        for c, p in enumerate(cols):
-            if p is None:
-                if s.exchangeable:
-                    cost[r, c] = 0.0 if exchange_absent else settings.absent_exchangeable
-                else:
-                    cost[r, c] = settings.absent_other
-            else:
-                extra = settings.observed_exchanged if (s.exchangeable and exchange_absent) else 0.0
-                cost[r, c] = z2[i, p] / max(n_h - missing, 1) + per_proton[p] + extra
+    # signal-by-peak cost of one proton, then one row per proton and one column per slot
+    per_peak = (z2 / max(n_h - missing, 1)
+                + (settings.w_multiplicity * pen_mult + settings.w_coupling * pen_j) / n_per[:, None])
+    if exchange_absent:
+        per_peak = per_peak + settings.observed_exchanged * exchangeable[:, None]
+    absent_cost = np.where(exchangeable, 0.0 if exchange_absent else settings.absent_exchangeable,
+                           settings.absent_other)
+    by_signal = np.hstack([np.repeat(per_peak, capacity, axis=1),
+                           np.repeat(absent_cost[:, None], absent, axis=1)])
+    cost = by_signal[rows]
     row_ind, col_ind = linear_sum_assignment(cost)
 
     placed: dict[int, dict[int | None, int]] = {}
