@@ -14,7 +14,8 @@ The misfit of a candidate is
 
     S = (1/H) Σ_protons min(((δ_obs - δ_pred) / σ)^2, z_cap)   shift residuals
     I = w_I · Σ_classes (protons not placed in the class's main peak)   integrals
-    M = w_M · Σ_classes multiplicity penalty (0, 0.3, 0.5 or 1)     patterns
+    M = w_M · (Σ_classes multiplicity penalty (0, 0.3, 0.5 or 1)
+               + 0.5 per sharp singlet holding two classes coupled to each other)
     J = w_J · Σ_classes coupling-constant penalty (0..1)           J values
     C = w_C · (observed peaks left empty + predicted groups beyond one per peak)
 
@@ -52,6 +53,7 @@ class Settings:
     absent_other: float = 25.0
     observed_exchanged: float = 4.0
     j_tolerance: float = 1.5
+    coupled_singlet: float = 0.5
 
 
 DEFAULT_SETTINGS = Settings()
@@ -129,6 +131,14 @@ def coupling_penalty(observed: tuple[float, ...], predicted: tuple[float, ...], 
     return total / len(observed)
 
 
+def _mutually_coupled(signals, held: list[int]) -> bool:
+    """True when two of the signals placed in one peak couple to each other with J >= 3 Hz:
+    non-equivalent coupled H do not give a sharp singlet (common practice)."""
+    inside = set(held)
+    return any(c.signal in inside and c.signal != i and c.j >= 3.0
+               for i in held for c in getattr(signals[i], "partners", ()))
+
+
 def _groups(shifts: list[float], gap: float) -> int:
     if not shifts:
         return 0
@@ -198,6 +208,7 @@ def match(signals, peaks: tuple[Peak, ...], counts: tuple[int, ...], missing: in
 
     pairings, shift_sum, integral, mult, coup = [], 0.0, 0.0, 0.0, 0.0
     by_peak: dict[int, list[float]] = {}
+    members: dict[int, list[int]] = {}
     for i, s in enumerate(signals):
         where = placed.get(i, {None: s.n_h})
         main, protons = max(where.items(), key=lambda kv: (kv[1], kv[0] is not None))
@@ -214,12 +225,15 @@ def match(signals, peaks: tuple[Peak, ...], counts: tuple[int, ...], missing: in
             pairings.append(Pairing(i, None, protons, None, s.shift, 0.0, 0.0, 0.0))
             continue
         by_peak.setdefault(main, []).append(s.shift)
+        members.setdefault(main, []).append(i)
         peak = peaks[main]
         z = (peak.shift - s.shift) / s.sigma if _distance(s.shift, peak) else 0.0
         mult += pen_mult[i, main]
         coup += pen_j[i, main]
         pairings.append(Pairing(i, main, protons, peak.shift, s.shift, z,
                                 float(pen_mult[i, main]), float(pen_j[i, main])))
+    mult += sum(settings.coupled_singlet for p, held in members.items()
+                if peaks[p].multiplicity == "s" and _mutually_coupled(signals, held))
     observed_h = max(n_h - missing, 1) if not no_integrals else max(n_h, 1)
     count = len(peaks) - len(by_peak) + sum(
         _groups(shifts, settings.group_gap + peaks[p].high - peaks[p].low) - 1 for p, shifts in by_peak.items()
