@@ -16,7 +16,10 @@
  * form is connected and each new vertex must bond to the prefix.
  *
  * The search is an explicit-stack depth-first traversal, so Python can pull
- * structures in batches and the stream stays lazy; memory is O(n^2).
+ * structures in batches and the stream stays lazy; memory is O(n^2).  With
+ * parts > 1, the surviving nodes at level split_level are dealt out in turn and
+ * only subtrees of this part are searched: the parts are disjoint, together
+ * complete, and the same whatever process runs them.
  */
 #define PY_SSIZE_T_CLEAN
 #include <Python.h>
@@ -45,6 +48,9 @@ typedef struct {
     int excess;                 /* total bond order minus (n - 1) */
     int resid_sum;              /* free valence of the placed vertices */
     unsigned long long nodes;
+    /* share of the work: subtrees below level split_level are dealt out in turn */
+    int split_level, part, parts;
+    unsigned long long split_count;
 } Enumerator;
 
 /* ---------- canonicity test ---------------------------------------------- */
@@ -270,6 +276,9 @@ static int step(Enumerator *e)
         place(e, k, e->ub[k][MAXN - 1]);
         e->nodes++;
         if (!feasible(e, k) || !is_canonical(e, k + 1)) continue;
+        if (e->parts > 1 && k == (e->split_level < e->n - 1 ? e->split_level : e->n - 1)) {
+            if (e->split_count++ % (unsigned long long)e->parts != (unsigned long long)e->part) continue;
+        }
         if (k == e->n - 1) return 1;
         e->k = k + 1;
         e->started = 0;
@@ -283,11 +292,16 @@ static int Enumerator_init(Enumerator *e, PyObject *args, PyObject *kw)
 {
     PyObject *vals, *degs, *counts;
     Py_buffer forbid;
-    int maxorder = 3;
-    static char *names[] = {"values", "degrees", "counts", "forbid", "maxorder", NULL};
-    if (!PyArg_ParseTupleAndKeywords(args, kw, "OOOy*|i", names,
-                                     &vals, &degs, &counts, &forbid, &maxorder))
+    int maxorder = 3, split_level = 3, part = 0, parts = 1;
+    static char *names[] = {"values", "degrees", "counts", "forbid", "maxorder",
+                            "split_level", "part", "parts", NULL};
+    if (!PyArg_ParseTupleAndKeywords(args, kw, "OOOy*|iiii", names, &vals, &degs, &counts,
+                                     &forbid, &maxorder, &split_level, &part, &parts))
         return -1;
+    if (parts < 1 || part < 0 || part >= parts || split_level < 0) {
+        PyErr_SetString(PyExc_ValueError, "need 0 <= part < parts and split_level >= 0");
+        return -1;
+    }
     Py_ssize_t T = PySequence_Size(vals);
     if (T <= 0 || T > MAXT || PySequence_Size(degs) != T || PySequence_Size(counts) != T
         || forbid.len != T * T) {
@@ -319,6 +333,9 @@ static int Enumerator_init(Enumerator *e, PyObject *args, PyObject *kw)
         return -1;
     }
     e->n = n;
+    e->split_level = split_level;
+    e->part = part;
+    e->parts = parts;
     e->excess = e->rem_deg / 2 - (n - 1);
     return 0;
 }
@@ -341,8 +358,9 @@ static PyObject *Enumerator_next_batch(Enumerator *e, PyObject *args)
     while (PyList_GET_SIZE(out) < limit && skipped < 4 * limit) {
         int got;
         if (n == 1) {
-            got = !e->done;
-            if (got) { e->type[0] = 0; e->done = 1; }
+            got = !e->done && e->part == 0;
+            if (got) e->type[0] = 0;
+            e->done = 1;
         } else {
             got = step(e);
         }

@@ -308,7 +308,8 @@ class IsomerStream:
 
     # -- the runs of the compiled core ------------------------------------------
 
-    def _runs(self) -> Iterator[list[tuple[AtomType, int]]]:
+    def runs(self) -> Iterator[list[tuple[AtomType, int]]]:
+        """The hydrogen distributions the compiled core will search, as [(AtomType, count), ...]."""
         single = self.formula.heavy_atoms == 1
         hydrogens = self.formula["H"]
         for states in _state_choices(self.formula, self.complete):
@@ -340,7 +341,7 @@ class IsomerStream:
                 return False
         return True
 
-    def _enumerator(self, types: list[tuple[AtomType, int]]) -> _enum.Enumerator:
+    def _enumerator(self, types: list[tuple[AtomType, int]], part: int = 0, parts: int = 1) -> _enum.Enumerator:
         size = len(types)
         forbid = bytearray(size * size)
         for p in self._forbid:
@@ -357,6 +358,8 @@ class IsomerStream:
             [t.degree for t, _ in types],
             [c for _, c in types],
             bytes(forbid),
+            part=part,
+            parts=parts,
         )
 
     # -- public verbs --------------------------------------------------------------
@@ -369,7 +372,7 @@ class IsomerStream:
         D. E. Knuth, "Estimating the efficiency of backtrack programs",
         Math. Comp. 1975, 29, 121. doi:10.1090/S0025-5718-1975-0373371-6
         """
-        return sum(self._enumerator(types).estimate(probes, seed) for types in self._runs())
+        return sum(self._enumerator(types).estimate(probes, seed) for types in self.runs())
 
     def _check_ceiling(self) -> None:
         if not self.ceiling:
@@ -385,22 +388,32 @@ class IsomerStream:
         self._check_ceiling()
         self.explored, self.removed, self.complete_run = 0, Counter(), False
         self.hinted = Counter()
-        deadline = None if self.budget is None else time.monotonic() + self.budget
-        for types in self._runs():
-            core = self._enumerator(types)
-            kinds = [t for t, _ in types]
-            while True:
-                if deadline is not None and time.monotonic() > deadline:
-                    return
-                _, records = core.next_batch(_BATCH)
-                if not records:
-                    break
-                for record in records:
-                    self.explored += 1
-                    isomer = self._accept(kinds, record)
-                    if isomer is not None:
-                        yield isomer
+        deadline = None if self.budget is None else time.time() + self.budget
+        for types in self.runs():
+            yield from self.stream_run(types, deadline=deadline)
+            if deadline is not None and time.time() > deadline:
+                return
         self.complete_run = True
+
+    def stream_run(self, types: list[tuple[AtomType, int]], part: int = 0, parts: int = 1,
+                   deadline: float | None = None) -> Iterator[Isomer]:
+        """The isomers of one hydrogen distribution, or of share ``part`` of ``parts`` of it.
+
+        The shares are disjoint and together complete, and the same in any
+        process, so they can be searched in parallel.  ``deadline`` is a
+        ``time.time()`` value after which the stream stops.
+        """
+        core = self._enumerator(types, part, parts)
+        kinds = [t for t, _ in types]
+        while deadline is None or time.time() <= deadline:
+            _, records = core.next_batch(_BATCH)
+            if not records:
+                return
+            for record in records:
+                self.explored += 1
+                isomer = self._accept(kinds, record)
+                if isomer is not None:
+                    yield isomer
 
     def count(self) -> int:
         """Number of isomers; in the complete space without patterns, only
@@ -409,13 +422,13 @@ class IsomerStream:
             return sum(1 for _ in self)
         self._check_ceiling()
         self.explored, self.complete_run = 0, False
-        deadline = None if self.budget is None else time.monotonic() + self.budget
+        deadline = None if self.budget is None else time.time() + self.budget
         total = 0
-        for types in self._runs():
+        for types in self.runs():
             core = self._enumerator(types)
             kinds = [t for t, _ in types]
             while True:
-                if deadline is not None and time.monotonic() > deadline:
+                if deadline is not None and time.time() > deadline:
                     return total
                 skipped, records = core.next_batch(_BATCH, True)
                 if not records and not skipped:

@@ -17,9 +17,10 @@ import heapq
 import math
 import sys
 import time
+from collections import Counter
 from collections.abc import Iterable, Iterator, Sequence
 from concurrent.futures import ProcessPoolExecutor
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from rdkit import Chem
@@ -181,11 +182,6 @@ def score(smiles: str, observation: Observation, settings: Settings = DEFAULT_SE
     return best
 
 
-def _score_chunk(args: tuple[list[str], Observation, Settings]) -> list[Scored | None]:
-    smiles, observation, settings = args
-    return [score(s, observation, settings) for s in smiles]
-
-
 # ------------------------------------------------------------ candidates ----
 
 
@@ -240,21 +236,131 @@ def _reason(s: Scored) -> str:
     return text
 
 
+class _Best:
+    """The best ``top`` scored candidates seen, plus any tied with the worst of them."""
+
+    def __init__(self, top: int) -> None:
+        self.top = top
+        self.heap: list[tuple[float, tuple[int, ...], Scored]] = []  # min-heap on -misfit
+        self.tied: list[Scored] = []
+
+    def add(self, scored: Scored) -> None:
+        item = (-scored.misfit, _reverse(scored.smiles), scored)
+        if len(self.heap) < self.top:
+            heapq.heappush(self.heap, item)
+            return
+        cut = -self.heap[0][0]
+        if item[:2] > self.heap[0][:2]:
+            evicted = heapq.heapreplace(self.heap, item)[2]
+            if -self.heap[0][0] < cut:
+                self.tied = []
+            elif evicted.misfit == cut:
+                self.tied.append(evicted)
+        elif scored.misfit == cut:
+            self.tied.append(scored)
+
+    def items(self) -> list[Scored]:
+        return sorted([s for _, _, s in self.heap] + self.tied, key=lambda s: (s.misfit, s.smiles))
+
+
+@dataclass(frozen=True)
+class _Job:
+    """What every work unit shares: picklable, so units can run in worker processes."""
+
+    formula: Formula
+    require: tuple[str, ...]
+    forbid: tuple[str, ...]
+    hints: tuple[Hint, ...]
+    observation: Observation
+    settings: Settings
+    top: int
+    temperature: float
+    track: str | None
+    deadline: float | None
+
+
+@dataclass(frozen=True)
+class _Unit:
+    """One share of the work: a share of a hydrogen distribution, or a list of SMILES."""
+
+    types: tuple | None = None
+    part: int = 0
+    parts: int = 1
+    smiles: tuple[str, ...] = ()
+
+
+@dataclass
+class _Tally:
+    """What one unit found."""
+
+    best: list[Scored]
+    log_norm: float
+    scored: int
+    hinted: Counter
+    misfits: list[float]
+    tracked: float | None
+    timed_out: bool
+
+
+_job: _Job | None = None
+
+
+def _set_job(job: _Job) -> None:
+    global _job
+    _job = job
+
+
+def _run_unit(unit: _Unit) -> _Tally:
+    """Score one unit of the job set by :func:`_set_job`; pure given (job, unit)."""
+    job = _job
+    best, log_norm, scored, misfits, tracked, timed_out = _Best(job.top), -math.inf, 0, [], None, False
+    stream = None
+    if unit.types is not None:
+        stream = IsomerStream(job.formula, require=job.require, forbid=job.forbid, ceiling=0, hints=job.hints)
+        source: Iterable[str] = (iso.smiles for iso in stream.stream_run(list(unit.types), unit.part,
+                                                                        unit.parts, job.deadline))
+    else:
+        source = unit.smiles
+    for smiles in source:
+        if job.deadline is not None and time.time() > job.deadline:
+            timed_out = True
+            break
+        result = score(smiles, job.observation, job.settings)
+        if result is None:
+            continue
+        scored += 1
+        log_norm = _logaddexp(log_norm, -result.misfit / job.temperature)
+        best.add(result)
+        if job.track is not None:
+            misfits.append(result.misfit)
+            if result.smiles == job.track:
+                tracked = result.misfit
+    if job.deadline is not None and time.time() > job.deadline:
+        timed_out = True
+    hinted = stream.hinted if stream is not None else Counter()
+    return _Tally(best.items(), log_norm, scored, hinted, misfits, tracked, timed_out)
+
+
 @dataclass
 class Identifier:
     """Rank candidate structures for a formula and a peak list.
 
     Parameters
     ----------
-    top : how many candidates to keep (ties at the cut are counted, not kept).
+    top : how many candidates to keep; candidates tied with the last are kept too.
     solvent : overrides the peak list's own solvent; CDCl3 when neither says.
+    field_mhz : overrides the peak list's spectrometer frequency; 400 when neither says.
     require, forbid : SMARTS that narrow the candidates.
     use_hints : read hints from the spectrum to narrow the isomer space
         (each one reported with what it removed).
-    workers : scoring processes; 1 scores in this process.
+    workers : processes that generate and score; 1 works in this process.
+        The result does not depend on it: the work is cut into the same units
+        whatever the number of workers, and merged in unit order.
     budget : seconds after which the run stops and says it is incomplete.
     ceiling : the generator's limit on the estimated isomer space.
     progress : print a progress line on stderr on long runs.
+    track : a known answer's SMILES; the run then records every misfit and the
+        answer's own (benchmarks).
     """
 
     top: int = 10
@@ -270,7 +376,6 @@ class Identifier:
     progress: bool = False
     settings: Settings = field(default_factory=Settings)
     track: str | None = None
-    """A known answer's SMILES: the run then records every misfit and the answer's (benchmarks)."""
 
     def identify(self, formula: str, peaks: str | Spectrum, candidates: str | None = None) -> Shortlist:
         """Run the identification; ``peaks`` is inline text, a file path or a Spectrum."""
@@ -278,6 +383,8 @@ class Identifier:
             raise InputError("--top must be at least 1")
         if self.workers < 1:
             raise InputError("--workers must be at least 1")
+        if self.budget is not None and self.budget <= 0:
+            raise InputError("the time budget must be a positive number of seconds")
         parsed = parse_formula(formula)
         spectrum = peaks if isinstance(peaks, Spectrum) else read_peaks(peaks)
         observation, dropped = observe(parsed, spectrum, self.solvent, self.field_mhz, self.keep_all_peaks)
@@ -285,22 +392,50 @@ class Identifier:
         forbid = [compile_smarts(s, "--forbid") for s in self.forbid]
         hints = tuple(read_hints(observation.peaks, observation.normalisations[0].counts)) if self.use_hints else ()
         result = Shortlist(parsed, observation, dropped, [], 0, False, hints)
+        start = time.time()
+        deadline = None if self.budget is None else start + self.budget
+        job = _Job(parsed, tuple(self.require), tuple(self.forbid), hints, observation, self.settings,
+                   self.top, temperature(), self.track, deadline)
         if candidates is None:
             stream = IsomerStream(parsed, require=self.require, forbid=self.forbid, ceiling=self.ceiling,
-                                  budget=self.budget, hints=hints)
-            source: Iterable[str] = (iso.smiles for iso in stream)
-        else:
-            stream = None
-            listed, result.skipped_inputs = read_candidates(candidates)
-            source = self._suspects(listed, parsed, require, forbid, result)
-        ranked = self._rank(source, observation, result)
-        if stream is not None:
-            result.complete = stream.complete_run and not self._timed_out
+                                  hints=hints)
+            stream._check_ceiling()
+            stream.hinted.clear()
+            units = [_Unit(tuple(types), part, parts) for types in stream.runs()
+                     for parts in [_shares(stream, types)] for part in range(parts)]
             result.hinted = dict(stream.hinted)
         else:
-            result.complete = not self._timed_out
-        result.candidates = ranked
+            listed, result.skipped_inputs = read_candidates(candidates)
+            suspects = list(self._suspects(listed, parsed, require, forbid, result))
+            units = [_Unit(smiles=tuple(suspects[i:i + _CHUNK])) for i in range(0, len(suspects), _CHUNK)]
+        best, log_norm, timed_out = _Best(self.top), -math.inf, False
+        for done, tally in enumerate(self._tallies(job, units), 1):
+            result.explored += tally.scored
+            log_norm = _logaddexp(log_norm, tally.log_norm)
+            for s in tally.best:
+                best.add(s)
+            for name, n in tally.hinted.items():
+                result.hinted[name] = result.hinted.get(name, 0) + n
+            result.misfits.extend(tally.misfits)
+            if tally.tracked is not None:
+                result.tracked_misfit = tally.tracked
+            timed_out = timed_out or tally.timed_out
+            if self.progress:
+                print(f"peakrank: {done}/{len(units)} work units, {result.explored:,} candidates scored, "
+                      f"{time.time() - start:.0f} s", file=sys.stderr, end="\r", flush=True)
+        if self.progress and units:
+            print(file=sys.stderr)
+        result.complete = not timed_out
+        result.candidates = _ranked(best.items(), log_norm, job.temperature)
         return result
+
+    def _tallies(self, job: _Job, units: list[_Unit]) -> Iterator[_Tally]:
+        if self.workers == 1 or len(units) < 2:
+            _set_job(job)
+            yield from map(_run_unit, units)
+            return
+        with ProcessPoolExecutor(max_workers=self.workers, initializer=_set_job, initargs=(job,)) as pool:
+            yield from pool.map(_run_unit, units, chunksize=1)
 
     def _suspects(self, smiles: list[str], formula: Formula, require, forbid, result: Shortlist) -> Iterator[str]:
         seen = set()
@@ -315,90 +450,32 @@ class Identifier:
                 seen.add(s)
                 yield s
 
-    def _scored_stream(self, source: Iterable[str], observation: Observation) -> Iterator[Scored | None]:
-        chunks = _chunks(source, _CHUNK)
-        if self.workers == 1:
-            for chunk in chunks:
-                yield from _score_chunk((chunk, observation, self.settings))
-            return
-        with ProcessPoolExecutor(max_workers=self.workers) as pool:
-            jobs = ((chunk, observation, self.settings) for chunk in chunks)
-            for results in pool.map(_score_chunk, jobs, chunksize=1):
-                yield from results
 
-    def _rank(self, source: Iterable[str], observation: Observation, result: Shortlist) -> list[Candidate]:
-        temp = temperature()
-        heap: list[tuple[float, str, Scored]] = []  # max-heap via negated misfit
-        log_norm = -math.inf
-        start = time.monotonic()
-        self._timed_out = False
-        last_note = start
-        tied_at_cut: list[Scored] = []  # equal to the worst kept misfit: shown too, as ties
-        for scored in self._scored_stream(self._budgeted(source, start), observation):
-            if scored is None:
-                continue
-            result.explored += 1
-            if self.track is not None:
-                result.misfits.append(scored.misfit)
-                if scored.smiles == self.track:
-                    result.tracked_misfit = scored.misfit
-            now = time.monotonic()
-            if self.progress and now - last_note > 2.0 and heap:
-                last_note = now
-                print(f"peakrank: {result.explored:,} candidates scored in {now - start:.0f} s; "
-                      f"best misfit {-max(heap)[0]:.3f}", file=sys.stderr, end="\r")
-            log_norm = _logaddexp(log_norm, -scored.misfit / temp)
-            item = (-scored.misfit, _reverse(scored.smiles), scored)
-            if len(heap) < self.top:
-                heapq.heappush(heap, item)
-                continue
-            cut = -heap[0][0]
-            if item[:2] > heap[0][:2]:
-                evicted = heapq.heapreplace(heap, item)[2]
-                if -heap[0][0] < cut:
-                    tied_at_cut = []
-                elif evicted.misfit == cut:
-                    tied_at_cut.append(evicted)
-            elif scored.misfit == cut:
-                tied_at_cut.append(scored)
-        if self.progress and result.explored:
-            print(file=sys.stderr)
-        best = sorted([s for _, _, s in heap] + tied_at_cut, key=lambda s: (s.misfit, s.smiles))
-        ranked, previous, rank = [], None, 0
-        for position, s in enumerate(best, 1):
-            if previous is None or s.misfit != previous:
-                rank = position
-            previous = s.misfit
-            confidence = math.exp(-s.misfit / temp - log_norm)
-            ranked.append(Candidate(rank, s.smiles, Chem.MolToInchiKey(Chem.MolFromSmiles(s.smiles)),
-                                    s.misfit, confidence, False, s, _reason(s)))
-        for i, c in enumerate(ranked):
-            tied = any(o.misfit == c.misfit for j, o in enumerate(ranked) if j != i)
-            ranked[i] = Candidate(c.rank, c.smiles, c.inchikey, c.misfit, c.confidence, tied, c.scored, c.reason)
-        return ranked
+def _shares(stream: IsomerStream, types) -> int:
+    """How many units one hydrogen distribution is cut into: about 4,000 estimated structures each.
 
-    def _budgeted(self, source: Iterable[str], start: float) -> Iterator[str]:
-        for s in source:
-            if self.budget is not None and time.monotonic() - start > self.budget:
-                self._timed_out = True
-                return
-            yield s
+    Fixed by the Knuth estimate with a fixed seed, so the same for any number of workers.
+    """
+    guess = stream._enumerator(types).estimate(16, 1)
+    return max(1, min(32, math.ceil(guess / 4000)))
+
+
+def _ranked(best: list[Scored], log_norm: float, temp: float) -> list[Candidate]:
+    ranked, previous, rank = [], None, 0
+    for position, s in enumerate(best, 1):
+        if previous is None or s.misfit != previous:
+            rank = position
+        previous = s.misfit
+        confidence = math.exp(-s.misfit / temp - log_norm)
+        ranked.append(Candidate(rank, s.smiles, Chem.MolToInchiKey(Chem.MolFromSmiles(s.smiles)),
+                                s.misfit, confidence, False, s, _reason(s)))
+    counts = Counter(c.misfit for c in ranked)
+    return [replace(c, tied=counts[c.misfit] > 1) for c in ranked]
 
 
 def _reverse(smiles: str) -> tuple[int, ...]:
     """A key that orders SMILES backwards, so the heap evicts the later of equal misfits."""
     return tuple(-ord(ch) for ch in smiles) + (1,)
-
-
-def _chunks(items: Iterable[str], size: int) -> Iterator[list[str]]:
-    chunk = []
-    for item in items:
-        chunk.append(item)
-        if len(chunk) == size:
-            yield chunk
-            chunk = []
-    if chunk:
-        yield chunk
 
 
 def _logaddexp(a: float, b: float) -> float:
