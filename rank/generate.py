@@ -450,11 +450,7 @@ class IsomerStream:
             smiles = Chem.MolToSmiles(mol)
             if not _is_kekule_representative(mol, smiles, kinds, record):
                 return None
-        if not self.complete:
-            for f in plausibility_filters():
-                if mol.HasSubstructMatch(f.pattern):
-                    self.removed[f.id] += 1
-                    return None
+        # the user's patterns and the hints first: they are the most selective
         if any(not mol.HasSubstructMatch(p) for p in self._require):
             return None
         if any(mol.HasSubstructMatch(p) for p in self._forbid):
@@ -463,6 +459,11 @@ class IsomerStream:
             if not mol.HasSubstructMatch(pattern):
                 self.hinted[name] += 1
                 return None
+        if not self.complete:
+            for f in plausibility_filters():
+                if mol.HasSubstructMatch(f.pattern):
+                    self.removed[f.id] += 1
+                    return None
         return Isomer(smiles or Chem.MolToSmiles(mol), mol)
 
 
