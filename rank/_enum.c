@@ -32,6 +32,7 @@ typedef struct {
     PyObject_HEAD
     int n, ntypes, maxorder;
     int tval[MAXT], tdeg[MAXT], tleft[MAXT];
+    int tneed_double[MAXT];             /* 1: the atom must carry a double bond */
     unsigned char forbid[MAXT][MAXT];   /* bit o set: bond order o not allowed */
     /* search state */
     int k;                      /* level being filled (vertex index) */
@@ -40,6 +41,7 @@ typedef struct {
     unsigned char A[MAXN][MAXN];
     int type[MAXN];
     int resid[MAXN];
+    int doubles[MAXN];          /* double bonds on each placed vertex */
     int col[MAXN][MAXN];        /* current column candidate of each level */
     int ub[MAXN][MAXN];         /* upper bounds of that column's entries */
     int colsum[MAXN];
@@ -122,13 +124,15 @@ static int has_alternating_cycle(const Enumerator *e)
 
 static void place(Enumerator *e, int k, int t)
 {
-    int s = 0;
+    int s = 0, d = 0;
     for (int i = 0; i < k; i++) {
         int c = e->col[k][i];
         e->A[i][k] = e->A[k][i] = (unsigned char)c;
         e->resid[i] -= c;
         s += c;
+        if (c == 2) { e->doubles[i]++; d++; }
     }
+    e->doubles[k] = d;
     e->type[k] = t;
     e->colsum[k] = s;
     e->resid[k] = e->tdeg[t] - s;
@@ -143,6 +147,7 @@ static void unplace(Enumerator *e, int k)
     int t = e->type[k];
     for (int i = 0; i < k; i++) {
         e->resid[i] += e->col[k][i];
+        if (e->col[k][i] == 2) e->doubles[i]--;
         e->A[i][k] = e->A[k][i] = 0;
     }
     e->tleft[t]++;
@@ -178,6 +183,8 @@ static int feasible(const Enumerator *e, int k)
         for (int i = 0; i < parent; i++)
             if (e->resid[i]) return 0;
     }
+    for (int i = 0; i <= k; i++)
+        if (e->tneed_double[e->type[i]] && !e->doubles[i] && e->resid[i] < 2) return 0;
     if (left == 0) return R == 0;
     if (R < 1 || R > D || ((D - R) & 1)) return 0;
     if (e->placed_deg + e->resid_sum > 0 &&
@@ -292,11 +299,12 @@ static int Enumerator_init(Enumerator *e, PyObject *args, PyObject *kw)
 {
     PyObject *vals, *degs, *counts;
     Py_buffer forbid;
+    PyObject *need = NULL;
     int maxorder = 3, split_level = 3, part = 0, parts = 1;
     static char *names[] = {"values", "degrees", "counts", "forbid", "maxorder",
-                            "split_level", "part", "parts", NULL};
-    if (!PyArg_ParseTupleAndKeywords(args, kw, "OOOy*|iiii", names, &vals, &degs, &counts,
-                                     &forbid, &maxorder, &split_level, &part, &parts))
+                            "split_level", "part", "parts", "needs_double", NULL};
+    if (!PyArg_ParseTupleAndKeywords(args, kw, "OOOy*|iiiiO", names, &vals, &degs, &counts,
+                                     &forbid, &maxorder, &split_level, &part, &parts, &need))
         return -1;
     if (parts < 1 || part < 0 || part >= parts || split_level < 0) {
         PyErr_SetString(PyExc_ValueError, "need 0 <= part < parts and split_level >= 0");
@@ -320,6 +328,11 @@ static int Enumerator_init(Enumerator *e, PyObject *args, PyObject *kw)
         e->tdeg[t] = (int)PyLong_AsLong(b);
         e->tleft[t] = (int)PyLong_AsLong(c);
         Py_XDECREF(a); Py_XDECREF(b); Py_XDECREF(c);
+        if (need && need != Py_None) {
+            PyObject *f = PySequence_GetItem(need, t);
+            e->tneed_double[t] = f ? PyObject_IsTrue(f) : 0;
+            Py_XDECREF(f);
+        }
         n += e->tleft[t];
         e->rem_deg += e->tdeg[t] * e->tleft[t];
     }

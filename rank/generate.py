@@ -60,6 +60,8 @@ class AtomType:
 
     state: AtomState
     hydrogens: int
+    double_bond: bool | None = None
+    """True: the atom carries a double bond; False: it carries none; None: either."""
 
     @property
     def degree(self) -> int:
@@ -322,7 +324,35 @@ class IsomerStream:
                 if refused is not None:
                     self.hinted[refused.name] += round(self._enumerator(types).estimate(16, 1))
                     continue
-                yield types
+                yield from self._split_by_double_bonds(types)
+
+    def _split_by_double_bonds(self, types: list[tuple[AtomType, int]]) -> Iterator[list[tuple[AtomType, int]]]:
+        """Apply hints that put hydrogens on doubly bonded carbons.
+
+        Carbons with h H become two types, with and without a double bond; one run per
+        split with at least the hinted number on a double bond.  The runs are disjoint
+        and cover every structure that satisfies the hint.
+        """
+        claims = [h for h in self.hints if getattr(h, "double_bond", False) and h.hydrogens is not None]
+        if not claims:
+            yield types
+            return
+        claim = max(claims, key=lambda h: h.min_atoms)
+        target = next(((t, c) for t, c in types
+                       if t.state.element == "C" and t.hydrogens == claim.hydrogens and t.double_bond is None), None)
+        if target is None:
+            yield types
+            return
+        t, c = target
+        rest = [tc for tc in types if tc != target]
+        kept = []
+        for k in range(claim.min_atoms, c + 1):
+            parts = rest + [(AtomType(t.state, t.hydrogens, True), k), (AtomType(t.state, t.hydrogens, False), c - k)]
+            kept.append(sorted([(a, n) for a, n in parts if n], key=lambda tc: _type_key(tc[0]), reverse=True))
+        whole = self._enumerator(types).estimate(16, 1)
+        left = sum(self._enumerator(x).estimate(16, 1) for x in kept)
+        self.hinted[claim.name] += max(0, round(whole - left))
+        yield from kept
 
     @staticmethod
     def _feasible(types: list[tuple[AtomType, int]], single: bool) -> bool:
@@ -353,6 +383,11 @@ class IsomerStream:
                         _atom_truth(p, 1, a) and _atom_truth(p, 0, b)
                     ):
                         forbid[i * size + j] |= 1 << 3
+        for i, (a, _) in enumerate(types):
+            if a.double_bond is False:
+                for j in range(size):
+                    forbid[i * size + j] |= 1 << 2
+                    forbid[j * size + i] |= 1 << 2
         return _enum.Enumerator(
             [size - i for i in range(size)],
             [t.degree for t, _ in types],
@@ -360,6 +395,7 @@ class IsomerStream:
             bytes(forbid),
             part=part,
             parts=parts,
+            needs_double=[bool(t.double_bond) for t, _ in types],
         )
 
     # -- public verbs --------------------------------------------------------------
@@ -468,7 +504,7 @@ class IsomerStream:
 
 
 def _type_key(t: AtomType) -> tuple:
-    return (t.degree, t.state.valence, -t.hydrogens, t.state.id)
+    return (t.degree, t.state.valence, -t.hydrogens, t.state.id, {None: 0, True: 1, False: -1}[t.double_bond])
 
 
 def build_molecule(kinds: list[AtomType], record: bytes, aromatize: bool = True) -> Chem.Mol | None:

@@ -36,7 +36,9 @@ class Hint:
     """One claim about the structure, with the peaks it rests on.
 
     ``min_atoms`` asks for at least that many carbon atoms with ``hydrogens`` H
-    (a hydrogen-distribution hint); ``smarts`` asks every structure to match.
+    (a hydrogen-distribution hint), each carrying a double bond when
+    ``double_bond`` is set (in any Kekule form an aromatic carbon does);
+    ``smarts`` asks every structure to match.
     """
 
     name: str
@@ -44,6 +46,7 @@ class Hint:
     hydrogens: int | None = None
     min_atoms: int = 0
     smarts: str | None = None
+    double_bond: bool = False
 
     def allows(self, types) -> bool:
         """True when a hydrogen distribution [(AtomType, count), ...] can satisfy the hint."""
@@ -82,6 +85,7 @@ class _Rule:
     carbon_h: int | None
     max_j: float | None
     smarts: str | None
+    double_bond: bool
 
 
 def _split(text: str) -> tuple[str, ...]:
@@ -105,6 +109,7 @@ def hint_rules() -> tuple[_Rule, ...]:
             int(r["carbon_h"]) if r["carbon_h"] else None,
             float(r["max_j"]) if r["max_j"] else None,
             r["smarts"] or None,
+            r["double_bond"] == "yes",
         ))
     return tuple(rules)
 
@@ -122,7 +127,8 @@ def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int]) -> Hint | 
         if not used:
             return None
         groups = sum(n // rule.h_per_group for _, n in used)
-        return Hint(rule.name, ", ".join(p.label for p, _ in used), rule.carbon_h, groups)
+        return Hint(rule.name, ", ".join(p.label for p, _ in used), rule.carbon_h, groups,
+                    double_bond=rule.double_bond)
     if rule.kind == "peak":
         used = [p for p, n in pairs if rule.first.fits(p, n)]
         return Hint(rule.name, used[0].label, smarts=rule.smarts) if used else None

@@ -230,3 +230,27 @@ def test_require_hydroxyl_while_generating_equals_filtering_afterwards():
     assert {iso.smiles for iso in pruned} == afterwards
     assert len(afterwards) == 17  # OEIS A000598, hexanols
     assert pruned.explored < full.explored
+
+
+def _doubly_bonded_ch(mol) -> int:
+    """Carbons with one H that are aromatic or carry a double bond, read by RDKit."""
+    return sum(
+        1
+        for a in mol.GetAtoms()
+        if a.GetSymbol() == "C" and a.GetTotalNumHs() == 1
+        and (a.GetIsAromatic() or any(b.GetBondType() == Chem.BondType.DOUBLE for b in a.GetBonds()))
+    )
+
+
+@pytest.mark.parametrize(("formula", "at_least"), [("C7H8", 5), ("C5H5N", 4), ("C6H6O", 3)])
+def test_double_bond_hint_splits_runs_without_losing_structures(formula, at_least):
+    # The hint's claim, checked with RDKit on the full default space, must give the same set
+    # as the generator's split into runs with and without a double bond on the CH carbons.
+    from rank.hints import Hint
+
+    claim = Hint("sp2 CH", "test", hydrogens=1, min_atoms=at_least, double_bond=True)
+    split = IsomerStream(formula, hints=[claim])
+    during = {iso.smiles for iso in split}
+    afterwards = {iso.smiles for iso in IsomerStream(formula) if _doubly_bonded_ch(iso.mol) >= at_least}
+    assert during == afterwards
+    assert split.explored < sum(1 for _ in IsomerStream(formula))
