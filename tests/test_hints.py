@@ -1,0 +1,146 @@
+"""Hints read from a peak list (``rules/hints.tsv``): each row fires where it should, and no hint
+excludes the true structure of a known compound.
+
+Peak lists are rows of ``benchmarks/known.tsv`` (typical CDCl3 literature values from the
+solvent-impurity tables, H. E. Gottlieb, V. Kotlyar, A. Nudelman, J. Org. Chem. 1997, 62, 7512,
+doi:10.1021/jo971176v, and the Silverstein-Webster-Kiemle and Pretsch handbooks; from memory).
+Whether a hint holds for a true structure is checked with RDKit as the reference library: its
+SMARTS must match, and for a hydrogen-distribution hint the structure must have at least the
+claimed number of carbons carrying the given number of H.
+"""
+
+from __future__ import annotations
+
+import csv
+from pathlib import Path
+
+import pytest
+from rdkit import Chem
+
+from rank.formula import parse_formula
+from rank.hints import Hint, read_hints
+from rank.peaks import parse_peak_text, read_peaks
+from rank.shortlist import observe
+from rank.tables import read_table
+
+KNOWN = Path(__file__).resolve().parent.parent / "benchmarks" / "known.tsv"
+
+
+def _known_rows() -> dict[str, dict[str, str]]:
+    lines = [ln for ln in KNOWN.read_text(encoding="utf-8").splitlines() if ln.strip() and not ln.startswith("#")]
+    return {r["id"]: r for r in csv.DictReader(lines, delimiter="\t", quoting=csv.QUOTE_NONE)}
+
+
+ROWS = _known_rows()
+TABLE = {r["id"]: r for r in read_table("hints")}
+
+
+def _hints_of(row_id: str) -> list[Hint]:
+    """The hints an identification of this known.tsv row reads (first normalisation, as it uses)."""
+    row = ROWS[row_id]
+    observation, _ = observe(parse_formula(row["formula"]), read_peaks(row["peaks"]), row["solvent"] or None)
+    return read_hints(observation.peaks, observation.normalisations[0].counts)
+
+
+def _names(row_id: str) -> set[str]:
+    return {h.name for h in _hints_of(row_id)}
+
+
+# table id -> (a known.tsv row the hint is meant for, a near miss where it must stay silent, why)
+EXAMPLES = {
+    "methyl": ("ethyl_acetate", "nitromethane", "a 3H singlet at 4.33, above the CH3 window"),
+    "sp2_ch": ("benzene", "cyclohexene", "alkene H at 5.67, below the aromatic window"),
+    "aldehyde": ("benzaldehyde", "methyl_salicylate", "a 1H singlet at 10.76 (chelated phenol OH)"),
+    "tert_butyl": ("pinacolone", "cyclohexane", "a high-field singlet of 12H, not 9H"),
+    "methoxy": ("methyl_acetate", "phenylacetone", "a singlet at 3.70 of 2H (CH2), not 3H"),
+    "ethyl": ("ethyl_acetate", "butanal", "a CH3 triplet next to a sextet, no quartet"),
+    "isopropyl": ("isopropanol", "acetaldehyde", "a 1H quartet with a 3H doublet"),
+    "para_ring": ("chlorotoluene", "benzaldehyde", "one 2H doublet, the other aromatic 2H a triplet"),
+    "mono_ring": ("ethylbenzene", "p_xylene", "4 aromatic H, not 5"),
+}
+
+
+def test_every_hint_row_has_an_example_and_a_near_miss():
+    assert set(EXAMPLES) == set(TABLE)
+
+
+@pytest.mark.parametrize("hint_id", sorted(TABLE))
+def test_hint_fires_on_its_example(hint_id):
+    example, _, _ = EXAMPLES[hint_id]
+    assert TABLE[hint_id]["name"] in _names(example)
+
+
+@pytest.mark.parametrize("hint_id", sorted(TABLE))
+def test_hint_stays_silent_on_its_near_miss(hint_id):
+    _, near_miss, why = EXAMPLES[hint_id]
+    assert TABLE[hint_id]["name"] not in _names(near_miss), why
+
+
+def test_no_integrals_no_hints():
+    # ethyl acetate without H counts (Gottlieb et al. 1997, from memory): every hint rests on counts
+    peaks = parse_peak_text("4.12 (q, J = 7.1 Hz), 2.05 (s), 1.26 (t, J = 7.1 Hz)").peaks
+    assert read_hints(peaks, (0, 0, 0)) == []
+
+
+def test_broad_peaks_give_no_hint():
+    # a broad singlet of 3H in the methoxy window is not read as OCH3 (common practice: broad = exchange)
+    peaks = parse_peak_text("3.67 (br s, 3H)").peaks
+    assert read_hints(peaks, (3,)) == []
+
+
+@pytest.mark.parametrize(("row_id", "groups"), [("triethylamine", 3), ("mtbe", 4), ("isopropanol", 2)])
+def test_methyl_hint_asks_for_one_ch3_per_three_h(row_id, groups):
+    # known.tsv triethylamine 1.03 (t, 9H); mtbe 3.22 (s, 3H) and 1.19 (s, 9H); isopropanol 1.22 (d, 6H)
+    methyl = [h for h in _hints_of(row_id) if h.name == TABLE["methyl"]["name"]]
+    assert len(methyl) == 1
+    assert (methyl[0].hydrogens, methyl[0].min_atoms) == (3, groups)
+
+
+def test_hint_evidence_names_the_peaks_it_rests_on():
+    ethyl = next(h for h in _hints_of("ethyl_acetate") if h.name == TABLE["ethyl"]["name"])
+    assert "4.12" in ethyl.evidence and "1.26" in ethyl.evidence
+
+
+# ------------------------------------------------ hints never exclude the truth ----
+
+
+def _carbons_with(mol: Chem.Mol, hydrogens: int, double_bond: bool) -> int:
+    """Carbons with exactly ``hydrogens`` H; with ``double_bond`` only those carrying a double
+    bond in some Kekule form (aromatic carbons do)."""
+    n = 0
+    for atom in mol.GetAtoms():
+        if atom.GetSymbol() != "C" or atom.GetTotalNumHs() != hydrogens:
+            continue
+        if double_bond and not (atom.GetIsAromatic()
+                                or any(b.GetBondType() == Chem.BondType.DOUBLE for b in atom.GetBonds())):
+            continue
+        n += 1
+    return n
+
+
+def _violations(row_id: str) -> list[str]:
+    mol = Chem.MolFromSmiles(ROWS[row_id]["smiles"])
+    wrong = []
+    for h in _hints_of(row_id):
+        if h.smarts is not None:
+            pattern = Chem.MolFromSmarts(h.smarts)
+            assert pattern is not None, f"hint {h.name}: SMARTS {h.smarts!r} does not parse"
+            if not mol.HasSubstructMatch(pattern):
+                wrong.append(f"{h.name} ({h.smarts}) from {h.evidence}")
+        if h.hydrogens is not None:
+            have = _carbons_with(mol, h.hydrogens, getattr(h, "double_bond", False))
+            if have < h.min_atoms:
+                wrong.append(f"{h.name}: needs {h.min_atoms} C with {h.hydrogens} H, has {have}"
+                             f" (from {h.evidence})")
+    return wrong
+
+
+@pytest.mark.parametrize("row_id", sorted(ROWS))
+def test_hints_keep_the_true_structure_of_every_known_compound(row_id):
+    assert _violations(row_id) == []
+
+
+def test_every_hint_fires_somewhere_in_the_known_set():
+    # so that the test above checks every row of the table against true structures
+    fired = {h.name for row_id in ROWS for h in _hints_of(row_id)}
+    assert {r["name"] for r in TABLE.values()} <= fired
