@@ -9,6 +9,8 @@ All text that came from the user is escaped.
 
 from __future__ import annotations
 
+import math
+import re
 from html import escape
 
 from rdkit import Chem
@@ -28,44 +30,116 @@ table{border-collapse:collapse;margin:.5em 0;font-size:.92em} td,th{border:1px s
 th{background:#f4f4f4} td.num{text-align:right;font-variant-numeric:tabular-nums}
 .card{display:flex;flex-wrap:wrap;gap:1em;align-items:flex-start}
 .swatch{display:inline-block;width:.9em;height:.9em;border-radius:2px;vertical-align:middle;margin-right:.3em}
-.muted{color:#666} code{font-size:.95em}
+.muted{color:#666} code{font-size:.95em} .legend{max-width:640px;font-size:.85em;margin:.2em 0}
+td.class{white-space:nowrap}
 """
+
+
+# The browser itself refuses any load: nothing but the inline style is allowed.
+_POLICY = "default-src 'none'; style-src 'unsafe-inline'"
 
 
 def _color(i: int) -> str:
     return PALETTE[i % len(PALETTE)]
 
 
-def _hex_rgb(color: str) -> tuple[float, float, float]:
-    return tuple(int(color[k:k + 2], 16) / 255 for k in (1, 3, 5))
+def _hex_rgb(color: str, tint: float = 0.0) -> tuple[float, float, float]:
+    """The colour as RGB fractions, mixed with ``tint`` parts of white."""
+    return tuple(c + (1 - c) * tint for c in (int(color[k:k + 2], 16) / 255 for k in (1, 3, 5)))
+
+
+# Highlights on the structure are a little lighter than the sticks so that atom
+# labels (OH, NH) drawn over them stay legible; the hue is the same.
+_STRUCTURE_TINT = 0.3
 
 
 def structure_svg(candidate: Candidate, size: int = 300) -> str:
-    """The candidate drawn by RDKit, each proton class's atoms highlighted in its colour."""
-    mol = Chem.MolFromSmiles(candidate.smiles)
-    colors: dict[int, tuple[float, float, float]] = {}
+    """The candidate drawn by RDKit, each proton class's atoms highlighted in its colour.
+
+    The highlights are the stick colours lightened a little.  An atom that
+    carries two classes (the two H of a terminal =CH2, a diastereotopic CH2)
+    is drawn with both colours.
+
+    Parameters
+    ----------
+    candidate : Candidate
+        A ranked candidate; its predicted signals give the classes, in order.
+    size : int
+        Width and height of the drawing in pixels.
+
+    Returns
+    -------
+    str
+        An inline ``<svg>`` element (no XML declaration).
+    """
+    mol = rdMolDraw2D.PrepareMolForDrawing(Chem.MolFromSmiles(candidate.smiles))
+    colors: dict[int, list[tuple[float, float, float]]] = {}
     for i, sig in enumerate(candidate.scored.signals):
+        rgb = _hex_rgb(_color(i), _STRUCTURE_TINT)
         for a in sig.atoms:
-            colors.setdefault(a, _hex_rgb(_color(i)))
+            if rgb not in colors.setdefault(a, []):
+                colors[a].append(rgb)
     drawer = rdMolDraw2D.MolDraw2DSVG(size, size)
     opts = drawer.drawOptions()
     opts.addAtomIndices = False
     opts.clearBackground = False
-    rdMolDraw2D.PrepareAndDrawMolecule(drawer, mol, highlightAtoms=list(colors),
-                                       highlightAtomColors=colors, highlightBonds=[])
+    drawer.DrawMoleculeWithHighlights(mol, "", colors, {}, {}, {})
     drawer.FinishDrawing()
     svg = drawer.GetDrawingText()
-    return svg[svg.index("<svg"):]
+    # the drawing uses neither prefix; without them the only namespace left is SVG's own
+    return _UNUSED_NAMESPACES.sub("", svg[svg.index("<svg"):])
 
 
-def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height: int = 220) -> str:
-    """Observed sticks above the axis, predicted sticks below, coloured by proton class."""
+_UNUSED_NAMESPACES = re.compile(r"\s+xmlns:(?:rdkit|xlink)='[^']*'")
+
+
+def _observed_heights(candidate: Candidate, result: Shortlist) -> list[int]:
+    """H count drawn for each observed peak.
+
+    The candidate's whole-number integral; without integrals, the protons its
+    assignment places in the peak; 1 for a peak it leaves empty.
+    """
+    counts = candidate.scored.normalisation.counts
+    placed: dict[int, int] = {}
+    for p in candidate.scored.match.pairings:
+        if p.peak is not None:
+            placed[p.peak] = placed.get(p.peak, 0) + p.protons
+    heights = []
+    for i, _ in enumerate(result.observation.peaks):
+        count = counts[i] if i < len(counts) else 0
+        heights.append(count or placed.get(i, 0) or 1)
+    return heights
+
+
+def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height: int = 244) -> str:
+    """Observed sticks above the baseline, predicted sticks below, coloured by proton class.
+
+    Stick heights are H counts on one scale; the ppm axis decreases to the right,
+    as spectra are drawn.  Observed peaks no predicted signal was assigned to are
+    grey; dropped peaks (solvent, water, reference) are grey and dashed.
+
+    Parameters
+    ----------
+    candidate : Candidate
+        The candidate whose predicted signals and assignment are drawn.
+    result : Shortlist
+        The identification the candidate belongs to (observed and dropped peaks).
+    width, height : int
+        Size of the drawing in pixels.
+
+    Returns
+    -------
+    str
+        An inline ``<svg>`` element.
+    """
     peaks = result.observation.peaks
     signals = candidate.scored.signals
-    shifts = [p.shift for p in peaks] + [s.shift for s in signals]
+    dropped = [d.peak for d in result.dropped]
+    shifts = [p.high for p in peaks + tuple(dropped)] + [p.low for p in peaks + tuple(dropped)]
+    shifts += [s.shift for s in signals]
     high = max(10.0, max(shifts) + 0.5)
     low = min(0.0, min(shifts) - 0.5)
-    left, right, mid = 40, width - 20, height / 2
+    left, right, top, mid, axis = 70, width - 16, 14, 110, 210
 
     def x(ppm: float) -> float:
         return left + (high - ppm) / (high - low) * (right - left)
@@ -74,27 +148,34 @@ def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height:
     for p in candidate.scored.match.pairings:
         if p.peak is not None:
             owner.setdefault(p.peak, p.signal)
-    top_h = max([p.integral or 1 for p in peaks] + [s.n_h for s in signals])
-    scale = (mid - 30) / top_h
+    observed = _observed_heights(candidate, result)
+    scale = (mid - top - 6) / max(observed + [s.n_h for s in signals] + [1])
     parts = [(f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" '
-              f'viewBox="0 0 {width} {height}" role="img" aria-label="stick spectrum">'),
-             f'<line x1="{left}" y1="{mid}" x2="{right}" y2="{mid}" stroke="#444"/>']
-    tick = int(high)
+              f'viewBox="0 0 {width} {height}" role="img" aria-label="stick spectrum" font-size="11">')]
+    tick = math.floor(high)
     while tick >= low:
-        parts.append(f'<line x1="{x(tick):.1f}" y1="{mid}" x2="{x(tick):.1f}" y2="{mid + 4}" stroke="#444"/>'
-                     f'<text x="{x(tick):.1f}" y="{mid + 15}" font-size="10" text-anchor="middle">{tick}</text>')
+        xt = f"{x(tick):.1f}"
+        parts.append(f'<line x1="{xt}" y1="{top}" x2="{xt}" y2="{axis}" stroke="#eee"/>'
+                     f'<line x1="{xt}" y1="{axis}" x2="{xt}" y2="{axis + 4}" stroke="#444"/>'
+                     f'<text x="{xt}" y="{axis + 16}" text-anchor="middle">{tick}</text>')
         tick -= 1
-    parts.append(f'<text x="{right}" y="{height - 4}" font-size="10" text-anchor="end">δ / ppm</text>'
-                 f'<text x="{left}" y="12" font-size="10">observed</text>'
-                 f'<text x="{left}" y="{height - 4}" font-size="10">predicted</text>')
+    parts.append(f'<line x1="{left}" y1="{mid}" x2="{right}" y2="{mid}" stroke="#444"/>'
+                 f'<line x1="{left}" y1="{axis}" x2="{right}" y2="{axis}" stroke="#444"/>'
+                 f'<text x="{right}" y="{height - 2}" text-anchor="end">δ / ppm</text>'
+                 f'<text x="{left - 6}" y="{mid - 6}" text-anchor="end">observed</text>'
+                 f'<text x="{left - 6}" y="{mid + 15}" text-anchor="end">predicted</text>')
+    for p in dropped:
+        parts.append(f'<line x1="{x(p.shift):.1f}" y1="{mid}" x2="{x(p.shift):.1f}" y2="{mid - scale:.1f}" '
+                     f'stroke="#999" stroke-width="2" stroke-dasharray="3 2">'
+                     f'<title>{escape(p.label)}, dropped</title></line>')
     for i, p in enumerate(peaks):
         color = _color(owner[i]) if i in owner else "#999"
-        h = (p.integral or 1) * scale
+        h = observed[i] * scale
         if p.high - p.low > 0.01:
             parts.append(f'<rect x="{x(p.high):.1f}" y="{mid - h:.1f}" width="{x(p.low) - x(p.high):.1f}" '
                          f'height="{h:.1f}" fill="{color}" opacity="0.35"/>')
         parts.append(f'<line x1="{x(p.shift):.1f}" y1="{mid}" x2="{x(p.shift):.1f}" y2="{mid - h:.1f}" '
-                     f'stroke="{color}" stroke-width="2"><title>{escape(p.label)}</title></line>')
+                     f'stroke="{color}" stroke-width="2"><title>{escape(p.label)}, {observed[i]}H</title></line>')
     for i, s in enumerate(signals):
         h = s.n_h * scale
         parts.append(f'<line x1="{x(s.shift):.1f}" y1="{mid}" x2="{x(s.shift):.1f}" y2="{mid + h:.1f}" '
@@ -104,6 +185,10 @@ def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height:
     return "".join(parts)
 
 
+_LEGEND = ("Observed above the line, predicted below, heights in H; each colour is one proton class of the "
+           "structure and the table. Grey: observed peak with no class assigned; dashed: dropped peak.")
+
+
 def _candidate_section(c: Candidate, result: Shortlist) -> str:
     parts = c.scored.match.parts
     rows = []
@@ -111,7 +196,7 @@ def _candidate_section(c: Candidate, result: Shortlist) -> str:
         obs = "not observed" if row["observed_shift"] is None else f"{row['observed_shift']:.2f}"
         obs_mult = escape(row["observed_multiplicity"] or "")
         rows.append(
-            f"<tr><td><span class='swatch' style='background:{_color(row['signal'])}'></span>"
+            f"<tr><td class='class'><span class='swatch' style='background:{_color(row['signal'])}'></span>"
             f"{escape(row['family'])}</td><td class='num'>{obs}</td><td>{obs_mult}</td>"
             f"<td class='num'>{row['predicted_shift']:.2f}</td><td class='num'>{row['n_h']}</td>"
             f"<td>{escape(row['predicted_multiplicity'])}</td><td class='num'>{row['z']:.1f}</td>"
@@ -121,7 +206,8 @@ def _candidate_section(c: Candidate, result: Shortlist) -> str:
         f"<h2>Rank {c.rank}{tie}: <code>{escape(c.smiles)}</code></h2>"
         f"<p class='muted'>InChIKey {escape(c.inchikey)} · misfit {c.misfit:.3f} · confidence "
         f"{c.confidence:.1%} · {escape(c.reason)}</p>"
-        f"<div class='card'><div>{structure_svg(c)}</div><div>{stick_svg(c, result)}</div></div>"
+        f"<div class='card'><div>{structure_svg(c)}</div><div>{stick_svg(c, result)}"
+        f"<p class='muted legend'>{_LEGEND}</p></div></div>"
         "<table><tr><th>misfit part</th><th>value</th></tr>"
         f"<tr><td>shift residuals</td><td class='num'>{parts.shift:.3f}</td></tr>"
         f"<tr><td>integrals</td><td class='num'>{parts.integral:.3f}</td></tr>"
@@ -167,4 +253,5 @@ def report_html(result: Shortlist, title: str | None = None, shown: int = 5) -> 
         + f"<p class='caution'>{escape(CAUTION)}</p>"
     )
     return ("<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
+            f"<meta http-equiv='Content-Security-Policy' content=\"{_POLICY}\">"
             f"<title>{heading}</title><style>{_STYLE}</style></head><body>{body}</body></html>\n")
