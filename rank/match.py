@@ -15,7 +15,8 @@ The misfit of a candidate is
     S = (1/H) Σ_protons min(((δ_obs - δ_pred) / σ)^2, z_cap)   shift residuals
     I = w_I · Σ_classes (protons not placed in the class's main peak)   integrals
     M = w_M · (Σ_classes multiplicity penalty (0, 0.3, 0.5 or 1)
-               + 0.5 per sharp singlet holding two classes coupled to each other)
+               + 0.5 per sharp singlet holding two classes coupled to each other
+               + 0.5 per multiplet holding nothing but one uncoupled class)
     J = w_J · Σ_classes coupling-constant penalty (0..1)           J values
     C = w_C · (observed peaks left empty + predicted groups beyond one per peak)
 
@@ -54,6 +55,7 @@ class Settings:
     observed_exchanged: float = 4.0
     j_tolerance: float = 1.5
     coupled_singlet: float = 0.5
+    lone_singlet_multiplet: float = 0.5
 
 
 DEFAULT_SETTINGS = Settings()
@@ -234,6 +236,9 @@ def match(signals, peaks: tuple[Peak, ...], counts: tuple[int, ...], missing: in
                                 float(pen_mult[i, main]), float(pen_j[i, main])))
     mult += sum(settings.coupled_singlet for p, held in members.items()
                 if peaks[p].multiplicity == "s" and _mutually_coupled(signals, held))
+    mult += sum(settings.lone_singlet_multiplet for p, held in members.items()
+                if peaks[p].multiplicity == "m" and len(held) == 1
+                and signals[held[0]].multiplicity == "s" and not signals[held[0]].exchangeable)
     observed_h = max(n_h - missing, 1) if not no_integrals else max(n_h, 1)
     count = len(peaks) - len(by_peak) + sum(
         _groups(shifts, settings.group_gap + peaks[p].high - peaks[p].low) - 1 for p, shifts in by_peak.items()
