@@ -47,6 +47,7 @@ class Outcome:
     true_misfit: float | None
     best_misfit: float | None
     misfits: tuple[float, ...]
+    refused: str = ""
 
 
 def read_cases(path: str) -> list[Case]:
@@ -69,9 +70,13 @@ def read_cases(path: str) -> list[Case]:
 
 
 def run_case(case: Case, **options) -> Outcome:
-    """Identify one case with the known answer tracked."""
+    """Identify one case with the known answer tracked; a refused run (e.g. a space
+    above the ceiling) is an outcome with the reason, not an error."""
     start = time.perf_counter()
-    result = Identifier(track=case.smiles, **options).identify(case.formula, case.peaks)
+    try:
+        result = Identifier(track=case.smiles, **options).identify(case.formula, case.peaks)
+    except InputError as exc:
+        return Outcome(case, None, 0, time.perf_counter() - start, None, None, None, (), str(exc))
     seconds = time.perf_counter() - start
     best = result.candidates[0] if result.candidates else None
     return Outcome(case, result.tracked_rank(), result.explored, seconds,

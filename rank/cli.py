@@ -99,6 +99,9 @@ def _add_bench(sub) -> None:
     ben.add_argument("--only", action="append", default=[], metavar="ID", help="run only these ids (repeatable)")
     ben.add_argument("--no-hints", action="store_true", help="do not narrow the isomer space with hints")
     ben.add_argument("--workers", type=_positive_int, default=1, metavar="N", help="scoring processes (default 1)")
+    ben.add_argument("--budget", type=_seconds, metavar="SECONDS", help="time limit per compound")
+    ben.add_argument("--ceiling", type=_positive_int, default=None, metavar="N",
+                     help="refuse compounds whose isomer space is estimated above N (default 2,000,000)")
     ben.add_argument("--fit", action="store_true",
                      help="fit the confidence temperature on this set and print it with the calibration")
     ben.set_defaults(run=_run_bench)
@@ -106,6 +109,7 @@ def _add_bench(sub) -> None:
 
 def _run_bench(args: argparse.Namespace) -> int:
     from .bench import fit_temperature, read_cases, reliability, run_case, summary
+    from .generate import DEFAULT_CEILING
     from .shortlist import temperature
 
     cases = [c for c in read_cases(args.file) if not args.only or c.id in args.only]
@@ -114,7 +118,8 @@ def _run_bench(args: argparse.Namespace) -> int:
     outcomes = []
     print(f"{'id':<14} {'rank':>5} {'scored':>8} {'seconds':>8}  name")
     for case in cases:
-        o = run_case(case, use_hints=not args.no_hints, workers=args.workers, ceiling=0)
+        o = run_case(case, use_hints=not args.no_hints, workers=args.workers, budget=args.budget,
+                     ceiling=DEFAULT_CEILING if args.ceiling is None else args.ceiling)
         outcomes.append(o)
         rank = "-" if o.rank is None else str(o.rank)
         print(f"{case.id:<14} {rank:>5} {o.scored:>8,} {o.seconds:>8.2f}  {case.name}", flush=True)
@@ -128,7 +133,7 @@ def _run_bench(args: argparse.Namespace) -> int:
     if misses:
         print("misses (true rank; best candidate; misfits true / best):")
         for o in misses:
-            where = "never scored" if o.rank is None else f"rank {o.rank}"
+            where = f"refused ({o.refused})" if o.refused else "never scored" if o.rank is None else f"rank {o.rank}"
             true = "-" if o.true_misfit is None else f"{o.true_misfit:.3f}"
             best = "-" if o.best_misfit is None else f"{o.best_misfit:.3f}"
             print(f"  {o.case.id} {o.case.name}: {where}; best {o.best}; {true} / {best}")
