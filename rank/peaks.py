@@ -490,7 +490,11 @@ def read_peaks(source: str) -> Spectrum:
         elif suffix in (".jdx", ".dx", ".jcamp"):
             spectrum = _read_jcamp(path)
         elif suffix == ".txt":
-            spectrum = parse_peak_text(path.read_text(encoding="utf-8"))
+            try:
+                text_in_file = path.read_text(encoding="utf-8")
+            except (OSError, UnicodeDecodeError) as exc:
+                raise InputError(f"cannot read {path} as text: {exc}".splitlines()[0]) from None
+            spectrum = parse_peak_text(text_in_file)
         else:
             spectrum = _read_table_file(path, "," if suffix == ".csv" else "\t")
     else:
