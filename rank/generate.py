@@ -30,7 +30,8 @@ from rdkit import Chem, RDLogger
 
 from . import _enum
 from .errors import InputError
-from .formula import Formula, parse_formula
+from .formula import Formula, _hill_order, parse_formula
+from .fragment import Fragment, FragmentType, is_canonical_copy
 from .tables import read_table
 
 RDLogger.DisableLog("rdApp.*")
@@ -177,9 +178,9 @@ def _indent(line: str) -> int:
     return len(line) - len(line.lstrip())
 
 
-def _atom_truth(pattern: Chem.Mol, index: int, t: AtomType) -> bool | None:
+def _atom_truth(pattern: Chem.Mol, index: int, t: AtomType | FragmentType) -> bool | None:
     atom = pattern.GetAtomWithIdx(index)
-    if not atom.HasQuery():
+    if isinstance(t, FragmentType) or not atom.HasQuery():
         return None
     lines = [ln for ln in atom.DescribeQuery().splitlines() if ln.strip()]
     return _evaluate(lines, t)
@@ -310,23 +311,38 @@ class IsomerStream:
 
     # -- the runs of the compiled core ------------------------------------------
 
-    def runs(self) -> Iterator[list[tuple[AtomType, int]]]:
-        """The hydrogen distributions the compiled core will search, as [(AtomType, count), ...]."""
-        single = self.formula.heavy_atoms == 1
-        hydrogens = self.formula["H"]
-        for states in _state_choices(self.formula, self.complete):
-            groups = sorted(states.items(), key=lambda sc: sc[0].id)
-            for share in _hydrogen_shares(groups, hydrogens, single):
-                types = sorted(share.items(), key=lambda tc: _type_key(tc[0]), reverse=True)
-                if not (self._feasible(types, single) and self._may_pass(types)):
-                    continue
-                refused = next((h for h in self.hints if not h.allows(types)), None)
-                if refused is not None:
-                    self.hinted[refused.name] += round(self._enumerator(types).estimate(16, 1))
-                    continue
-                yield from self._split_by_double_bonds(types)
+    def runs(self) -> Iterator[list[tuple[AtomType | FragmentType, int]]]:
+        """The hydrogen distributions the compiled core will search, as [(AtomType, count), ...].
 
-    def _split_by_double_bonds(self, types: list[tuple[AtomType, int]]) -> Iterator[list[tuple[AtomType, int]]]:
+        A hint that names a group (``Hint.fragments``) contracts one copy of it to a
+        single vertex (a FragmentType); what the contraction removes is estimated
+        hint by hint and counted in ``hinted``.
+        """
+        grouped = [h for h in self.hints if h.fragments]
+        if grouped:
+            levels = [sum(self._enumerator(types).estimate(16, 1) for types in self._runs(grouped[:k], False))
+                      for k in range(len(grouped) + 1)]
+            for hint, before, after in zip(grouped, levels, levels[1:]):
+                self.hinted[hint.name] += max(0, round(before - after))
+        yield from self._runs(grouped, True)
+
+    def _runs(self, grouped: list, tally: bool) -> Iterator[list[tuple[AtomType | FragmentType, int]]]:
+        for formula, groups in _contractions(self.formula, grouped):
+            single = formula.heavy_atoms + len(groups) == 1
+            for states in _state_choices(formula, self.complete):
+                ordered = sorted(states.items(), key=lambda sc: sc[0].id)
+                for share in _hydrogen_shares(ordered, formula["H"], single):
+                    types = sorted([*share.items(), *groups], key=lambda tc: _type_key(tc[0]), reverse=True)
+                    if not (self._feasible(types, single) and self._may_pass(types)):
+                        continue
+                    refused = next((h for h in self.hints if not h.allows(types)), None)
+                    if refused is not None:
+                        if tally:
+                            self.hinted[refused.name] += round(self._enumerator(types).estimate(16, 1))
+                        continue
+                    yield from self._split_by_double_bonds(types, tally)
+
+    def _split_by_double_bonds(self, types: list, tally: bool = True) -> Iterator[list]:
         """Apply hints that put hydrogens on doubly bonded carbons.
 
         Carbons with h H become two types, with and without a double bond; one run per
@@ -338,20 +354,23 @@ class IsomerStream:
             yield types
             return
         claim = max(claims, key=lambda h: h.min_atoms)
-        target = next(((t, c) for t, c in types
-                       if t.state.element == "C" and t.hydrogens == claim.hydrogens and t.double_bond is None), None)
-        if target is None:
+        need = claim.min_atoms - sum(t.fragment.carbons(claim.hydrogens, True) * c
+                                     for t, c in types if isinstance(t, FragmentType))
+        target = next(((t, c) for t, c in types if isinstance(t, AtomType) and t.state.element == "C"
+                       and t.hydrogens == claim.hydrogens and t.double_bond is None), None)
+        if target is None or need <= 0:
             yield types
             return
         t, c = target
         rest = [tc for tc in types if tc != target]
         kept = []
-        for k in range(claim.min_atoms, c + 1):
+        for k in range(need, c + 1):
             parts = rest + [(AtomType(t.state, t.hydrogens, True), k), (AtomType(t.state, t.hydrogens, False), c - k)]
             kept.append(sorted([(a, n) for a, n in parts if n], key=lambda tc: _type_key(tc[0]), reverse=True))
-        whole = self._enumerator(types).estimate(16, 1)
-        left = sum(self._enumerator(x).estimate(16, 1) for x in kept)
-        self.hinted[claim.name] += max(0, round(whole - left))
+        if tally:
+            whole = self._enumerator(types).estimate(16, 1)
+            left = sum(self._enumerator(x).estimate(16, 1) for x in kept)
+            self.hinted[claim.name] += max(0, round(whole - left))
         yield from kept
 
     @staticmethod
@@ -384,10 +403,11 @@ class IsomerStream:
                     ):
                         forbid[i * size + j] |= 1 << 3
         for i, (a, _) in enumerate(types):
-            if a.double_bond is False:
-                for j in range(size):
-                    forbid[i * size + j] |= 1 << 2
-                    forbid[j * size + i] |= 1 << 2
+            # no double bond on this atom; a contracted group has single bonds only
+            closed = (1 << 2) | (1 << 3) if isinstance(a, FragmentType) else 1 << 2 if a.double_bond is False else 0
+            for j in range(size):
+                forbid[i * size + j] |= closed
+                forbid[j * size + i] |= closed
         return _enum.Enumerator(
             [size - i for i in range(size)],
             [t.degree for t, _ in types],
@@ -395,7 +415,7 @@ class IsomerStream:
             bytes(forbid),
             part=part,
             parts=parts,
-            needs_double=[bool(t.double_bond) for t, _ in types],
+            needs_double=[isinstance(t, AtomType) and bool(t.double_bond) for t, _ in types],
         )
 
     # -- public verbs --------------------------------------------------------------
@@ -477,14 +497,23 @@ class IsomerStream:
 
     # -- one structure ---------------------------------------------------------
 
-    def _accept(self, kinds: list[AtomType], record: bytes) -> Isomer | None:
-        mol = build_molecule(kinds, record)
+    def _accept(self, kinds: list, record: bytes) -> Isomer | None:
+        mol, copies = _assemble(kinds, record, expand=True)
         if mol is None:
             return None
         smiles = None
-        if record[-1]:
+        if copies:
+            # the Kekule forms to merge are those of the contracted graph: the groups'
+            # own rings are always written in one form, and their bonds out are single
+            if record[-1] and not _is_kekule_representative(_assemble(kinds, record, expand=False)[0],
+                                                            _assemble(kinds, record, False, False)[0]):
+                return None
+            ranks = list(Chem.CanonicalRankAtoms(mol, breakTies=False))
+            if not all(is_canonical_copy(mol, t, atoms, ranks) for t, atoms in copies):
+                return None
+        elif record[-1]:
             smiles = Chem.MolToSmiles(mol)
-            if not _is_kekule_representative(mol, smiles, kinds, record):
+            if not _is_kekule_representative(mol, build_molecule(kinds, record, aromatize=False), smiles):
                 return None
         # the user's patterns and the hints first: they are the most selective
         if any(not mol.HasSubstructMatch(p) for p in self._require):
@@ -503,45 +532,90 @@ class IsomerStream:
         return Isomer(smiles or Chem.MolToSmiles(mol), mol)
 
 
-def _type_key(t: AtomType) -> tuple:
+def _type_key(t: AtomType | FragmentType) -> tuple:
+    if isinstance(t, FragmentType):
+        return t.sort_key()
     return (t.degree, t.state.valence, -t.hydrogens, t.state.id, {None: 0, True: 1, False: -1}[t.double_bond])
 
 
-def build_molecule(kinds: list[AtomType], record: bytes, aromatize: bool = True) -> Chem.Mol | None:
-    """An RDKit molecule from one record of the compiled core."""
+_STAND_IN_ISOTOPE = 200
+"""A contracted group drawn unexpanded is a saturated carbon labelled with this mass plus its type index."""
+
+
+def _assemble(kinds: list, record: bytes, expand: bool = True,
+              aromatize: bool = True) -> tuple[Chem.Mol | None, list[tuple[FragmentType, frozenset[int]]]]:
+    """An RDKit molecule from one record of the compiled core, and the atoms of each expanded group.
+
+    ``expand=False`` draws each contracted group as a labelled saturated carbon.
+    """
     n = (int((8 * (len(record) - 1) + 1) ** 0.5) - 1) // 2
     rw = Chem.RWMol()
+    ports: list[list[int]] = []
+    copies = []
     for i in range(n):
         t = kinds[record[i]]
-        atom = Chem.Atom(t.state.element)
-        atom.SetFormalCharge(t.state.charge)
-        atom.SetNumExplicitHs(t.hydrogens)
+        if isinstance(t, FragmentType) and expand:
+            atoms, open_atoms = t.fragment.add_to(rw)
+            copies.append((t, atoms))
+            ports.append(open_atoms)
+            continue
+        if isinstance(t, FragmentType):
+            atom = Chem.Atom("C")
+            atom.SetIsotope(_STAND_IN_ISOTOPE + record[i])
+            hydrogens, charge = 4 - t.degree, 0
+        else:
+            atom = Chem.Atom(t.state.element)
+            hydrogens, charge = t.hydrogens, t.state.charge
+        atom.SetFormalCharge(charge)
+        atom.SetNumExplicitHs(hydrogens)
         atom.SetNoImplicit(True)
-        rw.AddAtom(atom)
+        ports.append([rw.AddAtom(atom)] * 8)
     p = n
     for i in range(n):
         for j in range(i + 1, n):
             order = record[p]
             p += 1
             if order:
-                rw.AddBond(i, j, _BOND[order])
+                rw.AddBond(ports[i].pop(), ports[j].pop(), _BOND[order])
     mol = rw.GetMol()
     ops = Chem.SANITIZE_ALL if aromatize else Chem.SANITIZE_ALL ^ Chem.SANITIZE_SETAROMATICITY
     try:
         Chem.SanitizeMol(mol, ops)
     except Chem.rdchem.MolSanitizeException:  # a valence RDKit does not accept
-        return None
-    return mol
+        return None, []
+    return mol, copies
 
 
-def _is_kekule_representative(mol: Chem.Mol, smiles: str, kinds: list[AtomType], record: bytes) -> bool:
-    """True when this Kekule form is the one RDKit reads back from the canonical SMILES."""
+def build_molecule(kinds: list, record: bytes, aromatize: bool = True) -> Chem.Mol | None:
+    """An RDKit molecule from one record of the compiled core (contracted groups expanded)."""
+    return _assemble(kinds, record, True, aromatize)[0]
+
+
+def _is_kekule_representative(mol: Chem.Mol, own: Chem.Mol, smiles: str | None = None) -> bool:
+    """True when the Kekule form ``own`` of ``mol`` is the one RDKit reads back from its canonical SMILES."""
     if not any(a.GetIsAromatic() for a in mol.GetAtoms()):
         return True
-    reference = Chem.MolFromSmiles(smiles)
+    reference = Chem.MolFromSmiles(smiles or Chem.MolToSmiles(mol))
     Chem.Kekulize(reference, clearAromaticFlags=True)
-    own = build_molecule(kinds, record, aromatize=False)
     return Chem.MolToSmiles(own) == Chem.MolToSmiles(reference)
+
+
+def _contractions(formula: Formula, grouped: list) -> Iterator[tuple[Formula, list[tuple[FragmentType, int]]]]:
+    """For each choice of one variant per group hint: the formula left after taking one copy
+    of each group out, and the contracted vertices."""
+    if not grouped:
+        yield formula, []
+        return
+    families = [tuple(Fragment(s) for s in h.fragments) for h in grouped]
+    for choice in product(*families):
+        left = Counter(dict(formula.counts))
+        for fragment in choice:
+            left.subtract(fragment.formula_counts())
+        if any(n < 0 for n in left.values()):
+            continue
+        merged = Counter(FragmentType(f, family) for f, family in zip(choice, families))
+        yield (Formula(_hill_order({el: n for el, n in left.items() if n > 0})),
+               sorted(merged.items(), key=lambda tc: tc[0].sort_key()))
 
 
 def isomers(formula: str, **options) -> Iterator[str]:

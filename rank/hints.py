@@ -6,10 +6,13 @@ doublets in the aromatic region are a para-disubstituted ring.  Hints are rules
 of thumb (common practice, ``rules/hints.tsv``), not laws, so every applied
 hint is reported with what it removed, and ``--no-hints`` turns them off.
 
-A hint acts at one of two levels:
+A hint acts at one of three levels:
 
 - on the hydrogen distribution (how many CH3, CH, ... the formula is split into),
   which removes whole runs of the generator before any structure is built;
+- as a group the structure must contain (``fragments``: an ethyl group, a
+  monosubstituted benzene ring, ...), which the generator places as one vertex
+  (``rank/fragment.py``), so structures without it are never built;
 - as a SMARTS pattern checked on each built structure before its spectrum is
   predicted.
 
@@ -27,6 +30,8 @@ from functools import cache
 
 from rdkit import Chem
 
+from .formula import Formula
+from .fragment import Fragment, FragmentType
 from .peaks import Peak
 from .tables import read_table
 
@@ -38,7 +43,8 @@ class Hint:
     ``min_atoms`` asks for at least that many carbon atoms with ``hydrogens`` H
     (a hydrogen-distribution hint), each carrying a double bond when
     ``double_bond`` is set (in any Kekule form an aromatic carbon does);
-    ``smarts`` asks every structure to match.
+    ``fragments`` asks every structure to contain one of these groups (SMILES with
+    ``*`` ports); ``smarts`` asks every structure to match.
     """
 
     name: str
@@ -47,13 +53,20 @@ class Hint:
     min_atoms: int = 0
     smarts: str | None = None
     double_bond: bool = False
+    fragments: tuple[str, ...] = ()
 
     def allows(self, types) -> bool:
-        """True when a hydrogen distribution [(AtomType, count), ...] can satisfy the hint."""
+        """True when a hydrogen distribution [(AtomType or FragmentType, count), ...] can satisfy the hint."""
         if self.hydrogens is None:
             return True
-        have = sum(c for t, c in types if t.state.element == "C" and t.hydrogens == self.hydrogens)
+        have = sum(c * (t.fragment.carbons(self.hydrogens) if isinstance(t, FragmentType)
+                        else t.state.element == "C" and t.hydrogens == self.hydrogens) for t, c in types)
         return have >= self.min_atoms
+
+    def fits(self, formula: Formula) -> bool:
+        """False when the formula cannot hold any of the hint's groups."""
+        return not self.fragments or any(
+            all(formula[el] >= n for el, n in Fragment(s).formula_counts().items()) for s in self.fragments)
 
     def pattern(self) -> Chem.Mol | None:
         return Chem.MolFromSmarts(self.smarts) if self.smarts else None
@@ -86,6 +99,7 @@ class _Rule:
     max_j: float | None
     smarts: str | None
     double_bond: bool
+    fragments: tuple[str, ...]
 
 
 def _split(text: str) -> tuple[str, ...]:
@@ -110,6 +124,7 @@ def hint_rules() -> tuple[_Rule, ...]:
             float(r["max_j"]) if r["max_j"] else None,
             r["smarts"] or None,
             r["double_bond"] == "yes",
+            tuple(r["fragments"].split()),
         ))
     return tuple(rules)
 
@@ -131,26 +146,28 @@ def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int]) -> Hint | 
                     double_bond=rule.double_bond)
     if rule.kind == "peak":
         used = [p for p, n in pairs if rule.first.fits(p, n)]
-        return Hint(rule.name, used[0].label, smarts=rule.smarts) if used else None
+        return Hint(rule.name, used[0].label, smarts=rule.smarts, fragments=rule.fragments) if used else None
     if rule.kind == "pair":
         for i, (a, n) in enumerate(pairs):
             if not rule.first.fits(a, n):
                 continue
             for j, (b, m) in enumerate(pairs):
                 if i != j and rule.second.fits(b, m) and _same_j(a, b):
-                    return Hint(rule.name, f"{a.label} with {b.label}", smarts=rule.smarts)
+                    return Hint(rule.name, f"{a.label} with {b.label}", smarts=rule.smarts,
+                                fragments=rule.fragments)
         return None
     if rule.kind == "total":
-        inside = [(p, n) for p, n in pairs if rule.first.low <= p.shift <= rule.first.high and not p.broad]
+        # peaks with a J above max_j (alkene H across a double bond) are set aside
+        inside = [(p, n) for p, n in pairs if rule.first.low <= p.shift <= rule.first.high and not p.broad
+                  and (rule.max_j is None or all(j <= rule.max_j for j in p.j))]
         if not inside or sum(n for _, n in inside) not in rule.first.n_h:
             return None
-        if rule.max_j is not None and any(j > rule.max_j for p, _ in inside for j in p.j):
-            return None
-        return Hint(rule.name, ", ".join(p.label for p, _ in inside), smarts=rule.smarts)
+        return Hint(rule.name, ", ".join(p.label for p, _ in inside), smarts=rule.smarts,
+                    fragments=rule.fragments)
     raise ValueError(f"rules/hints.tsv row {rule.id}: unknown kind {rule.kind!r}")
 
 
-def read_hints(peaks: Sequence[Peak], counts: Sequence[int]) -> list[Hint]:
+def read_hints(peaks: Sequence[Peak], counts: Sequence[int], formula: Formula | None = None) -> list[Hint]:
     """The hints the peaks support, given their whole-number H counts.
 
     Parameters
@@ -158,7 +175,9 @@ def read_hints(peaks: Sequence[Peak], counts: Sequence[int]) -> list[Hint]:
     peaks : observed peaks (solvent signals dropped)
     counts : H per peak from the chosen normalisation; all 0 when the list had
         no integrals, and then no hint applies (every hint rests on H counts).
+    formula : when given, a hint naming a group the formula cannot hold is left out.
     """
     if not any(counts):
         return []
-    return [h for h in (_apply(rule, peaks, counts) for rule in hint_rules()) if h is not None]
+    found = (_apply(rule, peaks, counts) for rule in hint_rules())
+    return [h for h in found if h is not None and (formula is None or h.fits(formula))]

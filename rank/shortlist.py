@@ -390,7 +390,9 @@ class Identifier:
         observation, dropped = observe(parsed, spectrum, self.solvent, self.field_mhz, self.keep_all_peaks)
         require = [compile_smarts(s, "--require") for s in self.require]
         forbid = [compile_smarts(s, "--forbid") for s in self.forbid]
-        hints = tuple(read_hints(observation.peaks, observation.normalisations[0].counts)) if self.use_hints else ()
+        hints = ()
+        if self.use_hints:
+            hints = tuple(read_hints(observation.peaks, observation.normalisations[0].counts, parsed))
         result = Shortlist(parsed, observation, dropped, [], 0, False, hints)
         start = time.time()
         deadline = None if self.budget is None else start + self.budget
