@@ -56,6 +56,9 @@ class Settings:
     j_tolerance: float = 1.5
     coupled_singlet: float = 0.5
     lone_singlet_multiplet: float = 0.5
+    hidden_j: float = 2.5
+    """Predicted couplings below this many Hz may go unreported: a meta coupling makes a
+    predicted dd that papers write as d (common practice); the pattern without them costs nothing."""
 
 
 DEFAULT_SETTINGS = Settings()
@@ -122,6 +125,27 @@ def multiplicity_penalty(observed: str, predicted: str, exchangeable: bool) -> f
     return 0.5 if abs(n_obs - n_pred) == 1 else 1.0
 
 
+_NAMES = {1: "d", 2: "t", 3: "q", 4: "quint", 5: "sext", 6: "sept"}
+
+
+@cache
+def without_small_couplings(multiplicity: str, j: tuple[float, ...], below: float) -> str:
+    """The first-order pattern left when couplings under ``below`` Hz are not resolved.
+
+    ``j`` holds one J per partner group, largest first, as the pattern's letters do:
+    ``without_small_couplings("dd", (7.8, 1.8), 2.5)`` gives ``"d"``.
+    """
+    groups = coupling_groups(multiplicity)
+    if not groups or len(groups) != len(j):
+        return multiplicity
+    kept = [n for n, value in zip(groups, j) if value >= below]
+    if not kept:
+        return "s"
+    if len(kept) == 1:
+        return _NAMES[kept[0]] if kept[0] in _NAMES else "m"
+    return "".join(_NAMES[n] for n in kept) if all(n <= 3 for n in kept) else "m"
+
+
 def coupling_penalty(observed: tuple[float, ...], predicted: tuple[float, ...], tolerance: float) -> float:
     """Mean over observed J of how far the nearest predicted J lies beyond ``tolerance`` Hz, in 3 Hz steps."""
     if not observed or not predicted:
@@ -184,8 +208,10 @@ def match(signals, peaks: tuple[Peak, ...], counts: tuple[int, ...], missing: in
     highs = np.array([pk.high for pk in peaks])
     distance = np.maximum(np.maximum(lows[None, :] - shifts[:, None], shifts[:, None] - highs[None, :]), 0.0)
     z2 = np.minimum((distance / sigmas[:, None]) ** 2, settings.z_cap)
-    pen_mult = np.array([[multiplicity_penalty(pk.multiplicity, sg.multiplicity, sg.exchangeable)
-                          for pk in peaks] for sg in signals]).reshape(n_sig, n_peaks)
+    coarse = [without_small_couplings(sg.multiplicity, sg.j, settings.hidden_j) for sg in signals]
+    pen_mult = np.array([[min(multiplicity_penalty(pk.multiplicity, sg.multiplicity, sg.exchangeable),
+                              multiplicity_penalty(pk.multiplicity, rough, sg.exchangeable))
+                          for pk in peaks] for sg, rough in zip(signals, coarse)]).reshape(n_sig, n_peaks)
     pen_j = np.array([[coupling_penalty(pk.j, sg.j, settings.j_tolerance) if pk.j and sg.j else 0.0
                        for pk in peaks] for sg in signals]).reshape(n_sig, n_peaks)
     exchangeable = np.array([sg.exchangeable for sg in signals])

@@ -118,10 +118,42 @@ def _carbons_with(mol: Chem.Mol, hydrogens: int, double_bond: bool) -> int:
     return n
 
 
+# The groups of the fragment rows, written independently as SMARTS (a port is any heavy atom joined
+# by a single bond): the structures a group hint keeps are those RDKit finds one of these in.
+GROUP_SMARTS = {
+    "ethyl": ["[CH3][CH2]-*"],
+    "isopropyl": ["[CH3][CH1]([CH3])-*"],
+    "tert_butyl": ["[CH3][CH0]([CH3])([CH3])-*"],
+    "para_ring": ["*-c1[cH][cH]c(-*)[cH][cH]1", "*-c1[cH][cH]n[cH][cH]1"],
+    "mono_ring": ["*-c1[cH][cH][cH][cH][cH]1"],
+}
+NAME_TO_ID = {r["name"]: i for i, r in TABLE.items()}
+
+
+def test_every_fragment_row_has_an_independent_pattern():
+    assert set(GROUP_SMARTS) == {i for i, r in TABLE.items() if r["fragments"]}
+
+
+@pytest.mark.parametrize("hint_id", sorted(GROUP_SMARTS))
+def test_fragment_copies_agree_with_the_independent_pattern_on_the_known_set(hint_id):
+    from rank.fragment import Fragment
+
+    fragments = [Fragment(s) for s in TABLE[hint_id]["fragments"].split()]
+    patterns = [Chem.MolFromSmarts(s) for s in GROUP_SMARTS[hint_id]]
+    for row in ROWS.values():
+        mol = Chem.MolFromSmiles(row["smiles"])
+        found = any(f.copies(mol) for f in fragments)
+        assert found == any(mol.HasSubstructMatch(p) for p in patterns), row["id"]
+
+
 def _violations(row_id: str) -> list[str]:
     mol = Chem.MolFromSmiles(ROWS[row_id]["smiles"])
     wrong = []
     for h in _hints_of(row_id):
+        if h.fragments:
+            patterns = [Chem.MolFromSmarts(s) for s in GROUP_SMARTS[NAME_TO_ID[h.name]]]
+            if not any(mol.HasSubstructMatch(p) for p in patterns):
+                wrong.append(f"{h.name} ({' or '.join(h.fragments)}) from {h.evidence}")
         if h.smarts is not None:
             pattern = Chem.MolFromSmarts(h.smarts)
             assert pattern is not None, f"hint {h.name}: SMARTS {h.smarts!r} does not parse"
