@@ -142,7 +142,7 @@ def without_small_couplings(multiplicity: str, j: tuple[float, ...], below: floa
     if not kept:
         return "s"
     if len(kept) == 1:
-        return _NAMES[kept[0]] if kept[0] in _NAMES else "m"
+        return _NAMES.get(kept[0], "m")
     return "".join(_NAMES[n] for n in kept) if all(n <= 3 for n in kept) else "m"
 
 

@@ -91,7 +91,7 @@ def test_a_group_the_formula_cannot_hold_leaves_the_hint_out():
 @pytest.mark.parametrize("smiles", ["*CC(*)C", "*=CC", "CC", "C1C"])
 def test_a_fragment_must_have_equivalent_single_bond_ports(smiles):
     with pytest.raises(ValueError):
-        Fragment(smiles).ports
+        assert Fragment(smiles).ports is None
 
 
 def test_fragment_counts_its_atoms_and_hydrogens():
