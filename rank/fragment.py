@@ -6,10 +6,10 @@ it, the generator contracts one copy of the group to a single vertex whose
 degree is the number of the group's open single bonds (its ports), enumerates
 the much smaller graphs, and expands the vertex again.
 
-A structure holding several copies of the group is reached once per
-non-equivalent copy, so it is kept only when the expanded copy is the canonical
-one: the copy whose atoms carry the smallest canonical ranks (RDKit canonical
-ranking without tie-breaking).  This is canonical augmentation in the sense of
+A structure holding more copies of the group than were contracted is reached
+once per non-equivalent choice of copies, so it is kept only when the expanded
+copies are the canonical ones: those whose atoms carry the smallest canonical
+ranks (RDKit canonical ranking without tie-breaking).  This is canonical augmentation in the sense of
 B. D. McKay, "Isomorph-free exhaustive generation", J. Algorithms 1998, 26, 306,
 doi:10.1006/jagm.1997.0898.  Every copy that matches the group's pattern can be
 contracted, so the structure with the canonical copy contracted is always
@@ -97,7 +97,7 @@ class FragmentType:
     """A generator vertex standing for one copy of ``fragment``.
 
     ``family`` lists every fragment the hint accepts (its variants); the canonical
-    copy is chosen among the copies of all of them.
+    copies are chosen among the copies of all of them.
     """
 
     fragment: Fragment
@@ -111,22 +111,21 @@ class FragmentType:
         return (self.degree, 99, 0, "~" + self.fragment.smiles, 0)
 
 
-def is_canonical_copy(mol: Chem.Mol, ftype: FragmentType, atoms: frozenset[int], ranks: list[int]) -> bool:
-    """True when ``atoms`` is a copy of the group with the smallest canonical ranks.
+def are_canonical_copies(mol: Chem.Mol, family: tuple[Fragment, ...], placed: list[frozenset[int]],
+                         ranks: list[int]) -> bool:
+    """True when the ``placed`` copies of a group are those with the smallest canonical ranks.
 
-    ``ranks`` are ``Chem.CanonicalRankAtoms(mol, breakTies=False)``; copies related
-    by a symmetry of the molecule share their ranks, so any of them is accepted.
+    Each copy's key is the sorted tuple of its atoms' ranks
+    (``Chem.CanonicalRankAtoms(mol, breakTies=False)``); the k placed copies must
+    be copies of one of the ``family`` fragments and hold the k smallest keys.
+    Copies related by a symmetry of the molecule share their key, so any of them
+    is accepted.
     """
-    key = tuple(sorted(ranks[a] for a in atoms))
-    found = False
-    best = None
-    for variant in ftype.family:
-        for copy in variant.copies(mol):
-            found = found or copy == atoms
-            k = tuple(sorted(ranks[a] for a in copy))
-            if best is None or k < best:
-                best = k
-    return found and key == best
+    found = {copy for variant in family for copy in variant.copies(mol)}
+    if any(atoms not in found for atoms in placed):
+        return False
+    keys = sorted(tuple(sorted(ranks[a] for a in copy)) for copy in found)
+    return sorted(tuple(sorted(ranks[a] for a in atoms)) for atoms in placed) == keys[:len(placed)]
 
 
 @cache

@@ -23,7 +23,7 @@ from collections import Counter
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
 from functools import cache
-from itertools import product
+from itertools import combinations_with_replacement, product
 from typing import NamedTuple
 
 from rdkit import Chem, RDLogger
@@ -31,7 +31,7 @@ from rdkit import Chem, RDLogger
 from . import _enum
 from .errors import InputError
 from .formula import Formula, _hill_order, parse_formula
-from .fragment import Fragment, FragmentType, is_canonical_copy
+from .fragment import Fragment, FragmentType, are_canonical_copies
 from .tables import read_table
 
 RDLogger.DisableLog("rdApp.*")
@@ -509,7 +509,10 @@ class IsomerStream:
                                                             _assemble(kinds, record, False, False)[0]):
                 return None
             ranks = list(Chem.CanonicalRankAtoms(mol, breakTies=False))
-            if not all(is_canonical_copy(mol, t, atoms, ranks) for t, atoms in copies):
+            placed: dict[tuple, list[frozenset[int]]] = {}
+            for t, atoms in copies:
+                placed.setdefault(t.family, []).append(atoms)
+            if not all(are_canonical_copies(mol, family, sets, ranks) for family, sets in placed.items()):
                 return None
         elif record[-1]:
             smiles = Chem.MolToSmiles(mol)
@@ -601,19 +604,20 @@ def _is_kekule_representative(mol: Chem.Mol, own: Chem.Mol, smiles: str | None =
 
 
 def _contractions(formula: Formula, grouped: list) -> Iterator[tuple[Formula, list[tuple[FragmentType, int]]]]:
-    """For each choice of one variant per group hint: the formula left after taking one copy
-    of each group out, and the contracted vertices."""
+    """For each choice of variants (``copies`` per group hint): the formula left after taking
+    those copies out, and the contracted vertices."""
     if not grouped:
         yield formula, []
         return
     families = [tuple(Fragment(s) for s in h.fragments) for h in grouped]
-    for choice in product(*families):
+    picks = [combinations_with_replacement(family, h.copies) for h, family in zip(grouped, families)]
+    for choice in product(*picks):
         left = Counter(dict(formula.counts))
-        for fragment in choice:
+        for fragment in (f for chosen in choice for f in chosen):
             left.subtract(fragment.formula_counts())
         if any(n < 0 for n in left.values()):
             continue
-        merged = Counter(FragmentType(f, family) for f, family in zip(choice, families))
+        merged = Counter(FragmentType(f, family) for chosen, family in zip(choice, families) for f in chosen)
         yield (Formula(_hill_order({el: n for el, n in left.items() if n > 0})),
                sorted(merged.items(), key=lambda tc: tc[0].sort_key()))
 

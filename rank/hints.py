@@ -43,8 +43,8 @@ class Hint:
     ``min_atoms`` asks for at least that many carbon atoms with ``hydrogens`` H
     (a hydrogen-distribution hint), each carrying a double bond when
     ``double_bond`` is set (in any Kekule form an aromatic carbon does);
-    ``fragments`` asks every structure to contain one of these groups (SMILES with
-    ``*`` ports); ``smarts`` asks every structure to match.
+    ``fragments`` asks every structure to contain ``copies`` copies of these groups
+    (SMILES with ``*`` ports); ``smarts`` asks every structure to match.
     """
 
     name: str
@@ -54,6 +54,12 @@ class Hint:
     smarts: str | None = None
     double_bond: bool = False
     fragments: tuple[str, ...] = ()
+    copies: int = 1
+
+    @property
+    def claim(self) -> str:
+        """The hint as the user reads it, e.g. ``2 × ethyl group``."""
+        return f"{self.copies} × {self.name}" if self.copies > 1 else self.name
 
     def allows(self, types) -> bool:
         """True when a hydrogen distribution [(AtomType or FragmentType, count), ...] can satisfy the hint."""
@@ -66,7 +72,8 @@ class Hint:
     def fits(self, formula: Formula) -> bool:
         """False when the formula cannot hold any of the hint's groups."""
         return not self.fragments or any(
-            all(formula[el] >= n for el, n in Fragment(s).formula_counts().items()) for s in self.fragments)
+            all(formula[el] >= self.copies * n for el, n in Fragment(s).formula_counts().items())
+            for s in self.fragments)
 
     def pattern(self) -> Chem.Mol | None:
         return Chem.MolFromSmarts(self.smarts) if self.smarts else None
@@ -153,8 +160,10 @@ def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int]) -> Hint | 
                 continue
             for j, (b, m) in enumerate(pairs):
                 if i != j and rule.second.fits(b, m) and _same_j(a, b):
+                    # the H counts may show several equal groups (4H q with 6H t: two ethyls)
+                    copies = min(n // min(rule.first.n_h), m // min(rule.second.n_h)) if rule.fragments else 1
                     return Hint(rule.name, f"{a.label} with {b.label}", smarts=rule.smarts,
-                                fragments=rule.fragments)
+                                fragments=rule.fragments, copies=max(copies, 1))
         return None
     if rule.kind == "total":
         # peaks with a J above max_j (alkene H across a double bond) are set aside

@@ -229,7 +229,7 @@ def report_html(result: Shortlist, title: str | None = None, shown: int = 5) -> 
         f"<td class='num'>{'' if p.integral is None else f'{p.integral:g}'}</td>"
         f"<td>{escape(', '.join(f'{j:g}' for j in p.j))}</td></tr>" for p in obs.peaks)
     dropped = "".join(f"<li>{escape(d.peak.label)}: {escape(d.reason)}</li>" for d in result.dropped)
-    hints = "".join(f"<li>{escape(h.name)} from {escape(h.evidence)}: removed about "
+    hints = "".join(f"<li>{escape(h.claim)} from {escape(h.evidence)}: removed about "
                     f"{result.hinted.get(h.name, 0):,} structures</li>" for h in result.hints)
     summary = "".join(
         f"<tr><td class='num'>{c.rank}{'=' if c.tied else ''}</td><td><code>{escape(c.smiles)}</code></td>"

@@ -55,7 +55,8 @@ def to_json(result: Shortlist) -> dict:
         "peaks_dropped": [{**_peak_json(d.peak), "reason": d.reason} for d in result.dropped],
         "normalisations": [{"counts": list(n.counts), "missing": n.missing, "error": round(n.error, 4)}
                            for n in obs.normalisations],
-        "hints": [{"name": h.name, "evidence": h.evidence, "removed": result.hinted.get(h.name, 0)}
+        "hints": [{"name": h.name, "copies": h.copies, "evidence": h.evidence,
+                   "removed": result.hinted.get(h.name, 0)}
                   for h in result.hints],
         "candidates_file_skipped_lines": result.skipped_inputs,
         "candidates_other_formula": result.other_formula,
@@ -117,7 +118,7 @@ def terminal_text(result: Shortlist, detail: int = 1) -> str:
     lines.append(f"integrals: {norm.text}")
     for h in result.hints:
         removed = result.hinted.get(h.name, 0)
-        lines.append(f"hint: {h.name} from {h.evidence}; removed about {removed:,} structures "
+        lines.append(f"hint: {h.claim} from {h.evidence}; removed about {removed:,} structures "
                      "(--no-hints turns hints off)")
     if result.skipped_inputs:
         lines.append(f"candidates file: {result.skipped_inputs} unreadable lines skipped")

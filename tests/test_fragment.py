@@ -100,3 +100,24 @@ def test_fragment_counts_its_atoms_and_hydrogens():
     assert (ring.ports, ring.formula_counts()["C"], ring.formula_counts()["H"]) == (2, 6, 4)
     assert ring.carbons(1, double_bond=True) == 4
     assert (ethyl.ports, ethyl.carbons(3), ethyl.formula_counts()["H"]) == (1, 1, 5)
+
+
+def _copies_at_least(formula: str, smarts: str, k: int) -> set[str]:
+    pattern = Chem.MolFromSmarts(smarts)
+    return {iso.smiles for iso in IsomerStream(formula) if len(iso.mol.GetSubstructMatches(pattern)) >= k}
+
+
+@pytest.mark.parametrize(("formula", "fragment", "reference", "copies", "total"), [
+    ("C8H18", "CC*", ETHYL, 2, 18),          # OEIS A000602: 18 octanes
+    ("C9H20", "CC*", ETHYL, 3, 35),          # OEIS A000602: 35 nonanes; 3,3-diethylpentane holds four
+    ("C7H16", "CC(C)*", ISOPROPYL, 2, 9),    # 2,4-dimethylpentane
+    ("C6H14O", "CC*", ETHYL, 2, None),       # diethyl-substituted ethers and alcohols
+])
+def test_contracting_several_copies_equals_counting_them_afterwards(formula, fragment, reference, copies, total):
+    stream = IsomerStream(formula, hints=[Hint("group", "test", fragments=(fragment,), copies=copies)])
+    made = [iso.smiles for iso in stream]
+    assert len(made) == len(set(made))
+    assert set(made) == _copies_at_least(formula, reference, copies)
+    assert made
+    if total is not None:
+        assert sum(1 for _ in IsomerStream(formula)) == total
