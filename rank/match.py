@@ -14,7 +14,8 @@ The misfit of a candidate is
 
     S = (1/H) Σ_protons min(((δ_obs - δ_pred) / σ)^2, z_cap)   shift residuals
     I = w_I · Σ_classes (protons not placed in the class's main peak)   integrals
-    M = w_M · (Σ_classes multiplicity penalty (0, 0.3, 0.5 or 1)
+    M = w_M · (Σ_classes multiplicity penalty (0, 0.3, 0.5 or 1; the lower of the
+                 predicted pattern and the pattern without couplings under hidden_j)
                + 0.5 per sharp singlet holding two classes coupled to each other
                + 0.5 per multiplet holding nothing but one uncoupled class)
     J = w_J · Σ_classes coupling-constant penalty (0..1)           J values

@@ -44,6 +44,10 @@ EXAMPLES: dict[str, tuple[list[str], list[str]]] = {
         ["C1=CC=C1"],  # cyclobutadiene
         ["C=C1C=CC1", "C=C1C=C1"],  # 3-methylenecyclobutene; methylenecyclopropene
     ),
+    "cyclobutadiene_in_aromatic": (
+        ["c1cc2ccc1-2"],  # bicyclo[4.2.0]octa-1,3,5,7-tetraene, drawn aromatic by RDKit
+        ["c1ccc2c(c1)CC2"],  # benzocyclobutene: one aromatic bond in the four-ring
+    ),
     "three_ring_hetero_ene": (
         ["C1=CO1", "C1=CS1", "CN1C=C1"],  # oxirene, thiirene, 1-methyl-1H-azirine
         ["C1=NC1", "C=C1CO1"],  # 2H-azirine; methyleneoxirane

@@ -21,6 +21,7 @@ TERT_BUTYL = "[CH3][CH0]([CH3])([CH3])-*"
 PHENYL = "*-c1[cH][cH][cH][cH][cH]1"
 PARA_PHENYLENE = "*-c1[cH][cH]c(-*)[cH][cH]1"
 PYRIDIN_4_YL = "*-c1[cH][cH]n[cH][cH]1"
+FORMYL = "[CH1](=O)-*"
 
 
 def _group(*smiles: str) -> Hint:
@@ -40,6 +41,8 @@ def _filtered(formula: str, *patterns: list[str]) -> set[str]:
     ("C7H16", ("CC(C)*",), [ISOPROPYL], 9),        # 2,4-dimethylpentane holds two isopropyls
     ("C6H12O", ("CC(C)(C)*",), [TERT_BUTYL], None),
     ("C5H10O", ("CC*",), [ETHYL], None),
+    ("C5H10O", ("O=C*",), [FORMYL], None),          # aldehydes, formates and formamides alike
+    ("C4H7NO", ("O=C*",), [FORMYL], None),
     ("C7H8O", ("*c1ccccc1",), [PHENYL], None),
     ("C8H10", ("*c1ccc(*)cc1",), [PARA_PHENYLENE], None),
     ("C6H7N", ("*c1ccc(*)cc1", "*c1ccncc1"), [PARA_PHENYLENE, PYRIDIN_4_YL], None),

@@ -137,6 +137,7 @@ def _carbons_with(mol: Chem.Mol, hydrogens: int, double_bond: bool) -> int:
 # The groups of the fragment rows, written independently as SMARTS (a port is any heavy atom joined
 # by a single bond): the structures a group hint keeps are those RDKit finds one of these in.
 GROUP_SMARTS = {
+    "aldehyde": ["[CH1](=O)-*"],
     "ethyl": ["[CH3][CH2]-*"],
     "isopropyl": ["[CH3][CH1]([CH3])-*"],
     "tert_butyl": ["[CH3][CH0]([CH3])([CH3])-*"],
