@@ -553,33 +553,33 @@ def _assemble(kinds: list, record: bytes, expand: bool = True,
     """
     n = (int((8 * (len(record) - 1) + 1) ** 0.5) - 1) // 2
     rw = Chem.RWMol()
-    ports: list[list[int]] = []
+    ports: list = []    # per vertex: its atom, or the list of an expanded group's open atoms
     copies = []
     for i in range(n):
         t = kinds[record[i]]
-        if isinstance(t, FragmentType) and expand:
-            atoms, open_atoms = t.fragment.add_to(rw)
-            copies.append((t, atoms))
-            ports.append(open_atoms)
-            continue
-        if isinstance(t, FragmentType):
-            atom = Chem.Atom("C")
+        if type(t) is FragmentType:
+            if expand:
+                atoms, open_atoms = t.fragment.add_to(rw)
+                copies.append((t, atoms))
+                ports.append(open_atoms)
+                continue
+            atom = Chem.Atom(6)
             atom.SetIsotope(_STAND_IN_ISOTOPE + record[i])
-            hydrogens, charge = 4 - t.degree, 0
+            atom.SetNumExplicitHs(4 - t.degree)
         else:
             atom = Chem.Atom(t.state.element)
-            hydrogens, charge = t.hydrogens, t.state.charge
-        atom.SetFormalCharge(charge)
-        atom.SetNumExplicitHs(hydrogens)
+            atom.SetFormalCharge(t.state.charge)
+            atom.SetNumExplicitHs(t.hydrogens)
         atom.SetNoImplicit(True)
-        ports.append([rw.AddAtom(atom)] * 8)
+        ports.append(rw.AddAtom(atom))
     p = n
     for i in range(n):
         for j in range(i + 1, n):
             order = record[p]
             p += 1
             if order:
-                rw.AddBond(ports[i].pop(), ports[j].pop(), _BOND[order])
+                a, b = ports[i], ports[j]
+                rw.AddBond(a if type(a) is int else a.pop(), b if type(b) is int else b.pop(), _BOND[order])
     mol = rw.GetMol()
     ops = Chem.SANITIZE_ALL if aromatize else Chem.SANITIZE_ALL ^ Chem.SANITIZE_SETAROMATICITY
     try:
