@@ -25,7 +25,7 @@ A hint acts at one of three levels:
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import cache
 
 from rdkit import Chem
@@ -184,9 +184,17 @@ def read_hints(peaks: Sequence[Peak], counts: Sequence[int], formula: Formula | 
     peaks : observed peaks (solvent signals dropped)
     counts : H per peak from the chosen normalisation; all 0 when the list had
         no integrals, and then no hint applies (every hint rests on H counts).
-    formula : when given, a hint naming a group the formula cannot hold is left out.
+    formula : when given, a group hint claims no more copies than the formula can hold,
+        and one whose group does not fit at all is left out.
     """
     if not any(counts):
         return []
-    found = (_apply(rule, peaks, counts) for rule in hint_rules())
-    return [h for h in found if h is not None and (formula is None or h.fits(formula))]
+    hints = []
+    for hint in (_apply(rule, peaks, counts) for rule in hint_rules()):
+        if hint is None:
+            continue
+        while formula is not None and hint.copies > 1 and not hint.fits(formula):
+            hint = replace(hint, copies=hint.copies - 1)
+        if formula is None or hint.fits(formula):
+            hints.append(hint)
+    return hints

@@ -112,6 +112,16 @@ def test_group_hint_counts_copies_from_the_integrals(row_id, hint_id, copies):
     assert len(truth.GetSubstructMatches(Chem.MolFromSmarts(GROUP_SMARTS[hint_id][0]))) >= copies
 
 
+def test_group_hint_claims_no_more_copies_than_the_formula_holds():
+    # a 4H quartet with a 6H triplet reads as two ethyl groups, but C3H8O has room for one
+    # (integrals deliberately inconsistent with the formula: the claim must still fit it)
+    peaks = parse_peak_text("3.40 (q, J = 7.0 Hz, 4H), 1.20 (t, J = 7.0 Hz, 6H)").peaks
+    ethyl = [h for h in read_hints(peaks, (4, 6), parse_formula("C3H8O")) if h.name == TABLE["ethyl"]["name"]]
+    assert [h.copies for h in ethyl] == [1]
+    four = [h for h in read_hints(peaks, (4, 6), parse_formula("C4H10O")) if h.name == TABLE["ethyl"]["name"]]
+    assert [h.copies for h in four] == [2]
+
+
 def test_hint_evidence_names_the_peaks_it_rests_on():
     ethyl = next(h for h in _hints_of("ethyl_acetate") if h.name == TABLE["ethyl"]["name"])
     assert "4.12" in ethyl.evidence and "1.26" in ethyl.evidence
