@@ -44,7 +44,8 @@ class Hint:
     (a hydrogen-distribution hint), each carrying a double bond when
     ``double_bond`` is set (in any Kekule form an aromatic carbon does);
     ``fragments`` asks every structure to contain ``copies`` copies of these groups
-    (SMILES with ``*`` ports); ``smarts`` asks every structure to match.
+    (SMILES with ``*`` ports), for formulas of DBE up to ``max_dbe``; ``smarts`` asks
+    every structure to match. ``peaks`` are the indices of the peaks it rests on.
     """
 
     name: str
@@ -55,6 +56,8 @@ class Hint:
     double_bond: bool = False
     fragments: tuple[str, ...] = ()
     copies: int = 1
+    max_dbe: int | None = None
+    peaks: tuple[int, ...] = ()
 
     @property
     def claim(self) -> str:
@@ -71,6 +74,8 @@ class Hint:
 
     def fits(self, formula: Formula) -> bool:
         """False when the formula cannot hold any of the hint's groups."""
+        if self.max_dbe is not None and formula.dbe > self.max_dbe:
+            return False
         return not self.fragments or any(
             all(formula[el] >= self.copies * n for el, n in Fragment(s).formula_counts().items())
             for s in self.fragments)
@@ -107,6 +112,7 @@ class _Rule:
     smarts: str | None
     double_bond: bool
     fragments: tuple[str, ...]
+    max_dbe: int | None
 
 
 def _split(text: str) -> tuple[str, ...]:
@@ -132,6 +138,7 @@ def hint_rules() -> tuple[_Rule, ...]:
             r["smarts"] or None,
             r["double_bond"] == "yes",
             tuple(r["fragments"].split()),
+            int(r["max_dbe"]) if r["max_dbe"] else None,
         ))
     return tuple(rules)
 
@@ -143,36 +150,37 @@ def _same_j(a: Peak, b: Peak) -> bool:
 
 
 def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int]) -> Hint | None:
-    pairs = list(zip(peaks, counts))
+    pairs = list(enumerate(zip(peaks, counts)))
+    group = {"smarts": rule.smarts, "fragments": rule.fragments, "max_dbe": rule.max_dbe}
     if rule.kind == "count":
-        used = [(p, n) for p, n in pairs if rule.first.fits(p, n)]
+        used = [(k, p, n) for k, (p, n) in pairs if rule.first.fits(p, n)]
         if not used:
             return None
-        groups = sum(n // rule.h_per_group for _, n in used)
-        return Hint(rule.name, ", ".join(p.label for p, _ in used), rule.carbon_h, groups,
-                    double_bond=rule.double_bond)
+        groups = sum(n // rule.h_per_group for _, _, n in used)
+        return Hint(rule.name, ", ".join(p.label for _, p, _ in used), rule.carbon_h, groups,
+                    double_bond=rule.double_bond, peaks=tuple(k for k, _, _ in used))
     if rule.kind == "peak":
-        used = [p for p, n in pairs if rule.first.fits(p, n)]
-        return Hint(rule.name, used[0].label, smarts=rule.smarts, fragments=rule.fragments) if used else None
+        used = [(k, p) for k, (p, n) in pairs if rule.first.fits(p, n)]
+        return Hint(rule.name, used[0][1].label, peaks=(used[0][0],), **group) if used else None
     if rule.kind == "pair":
-        for i, (a, n) in enumerate(pairs):
+        for i, (a, n) in pairs:
             if not rule.first.fits(a, n):
                 continue
-            for j, (b, m) in enumerate(pairs):
+            for j, (b, m) in pairs:
                 if i != j and rule.second.fits(b, m) and _same_j(a, b):
                     # the H counts may show several equal groups (4H q with 6H t: two ethyls)
                     copies = min(n // min(rule.first.n_h), m // min(rule.second.n_h)) if rule.fragments else 1
-                    return Hint(rule.name, f"{a.label} with {b.label}", smarts=rule.smarts,
-                                fragments=rule.fragments, copies=max(copies, 1))
+                    return Hint(rule.name, f"{a.label} with {b.label}", copies=max(copies, 1), peaks=(i, j),
+                                **group)
         return None
     if rule.kind == "total":
         # peaks with a J above max_j (alkene H across a double bond) are set aside
-        inside = [(p, n) for p, n in pairs if rule.first.low <= p.shift <= rule.first.high and not p.broad
-                  and (rule.max_j is None or all(j <= rule.max_j for j in p.j))]
-        if not inside or sum(n for _, n in inside) not in rule.first.n_h:
+        inside = [(k, p, n) for k, (p, n) in pairs if rule.first.low <= p.shift <= rule.first.high
+                  and not p.broad and (rule.max_j is None or all(j <= rule.max_j for j in p.j))]
+        if not inside or sum(n for _, _, n in inside) not in rule.first.n_h:
             return None
-        return Hint(rule.name, ", ".join(p.label for p, _ in inside), smarts=rule.smarts,
-                    fragments=rule.fragments)
+        return Hint(rule.name, ", ".join(p.label for _, p, _ in inside), peaks=tuple(k for k, _, _ in inside),
+                    **group)
     raise ValueError(f"rules/hints.tsv row {rule.id}: unknown kind {rule.kind!r}")
 
 
@@ -185,16 +193,24 @@ def read_hints(peaks: Sequence[Peak], counts: Sequence[int], formula: Formula | 
     counts : H per peak from the chosen normalisation; all 0 when the list had
         no integrals, and then no hint applies (every hint rests on H counts).
     formula : when given, a group hint claims no more copies than the formula can hold,
-        and one whose group does not fit at all is left out.
+        and one whose group does not fit at all (or whose DBE limit the formula passes)
+        is left out.
     """
     if not any(counts):
         return []
-    hints = []
+    hints, claimed = [], set()
     for hint in (_apply(rule, peaks, counts) for rule in hint_rules()):
         if hint is None:
             continue
         while formula is not None and hint.copies > 1 and not hint.fits(formula):
             hint = replace(hint, copies=hint.copies - 1)
-        if formula is None or hint.fits(formula):
-            hints.append(hint)
+        if formula is not None and not hint.fits(formula):
+            continue
+        if hint.fragments:
+            # a peak is evidence for one group only: two group hints on the same peaks would
+            # claim two groups where the spectrum shows one (table order decides)
+            if claimed & set(hint.peaks):
+                continue
+            claimed |= set(hint.peaks)
+        hints.append(hint)
     return hints

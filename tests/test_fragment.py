@@ -22,6 +22,10 @@ PHENYL = "*-c1[cH][cH][cH][cH][cH]1"
 PARA_PHENYLENE = "*-c1[cH][cH]c(-*)[cH][cH]1"
 PYRIDIN_4_YL = "*-c1[cH][cH]n[cH][cH]1"
 FORMYL = "[CH1](=O)-*"
+ORTHO = "*-c1[cH][cH][cH][cH]c1-*"
+META = "*-c1[cH]c(-*)[cH][cH][cH]1"
+PYRIDIN_2_YL = "*-c1[cH][cH][cH][cH]n1"
+PYRIDIN_3_YL = "*-c1[cH][cH][cH]n[cH]1"
 
 
 def _group(*smiles: str) -> Hint:
@@ -46,6 +50,9 @@ def _filtered(formula: str, *patterns: list[str]) -> set[str]:
     ("C7H8O", ("*c1ccccc1",), [PHENYL], None),
     ("C8H10", ("*c1ccc(*)cc1",), [PARA_PHENYLENE], None),
     ("C6H7N", ("*c1ccc(*)cc1", "*c1ccncc1"), [PARA_PHENYLENE, PYRIDIN_4_YL], None),
+    ("C8H10", ("*c1ccccc1*", "*c1cccc(*)c1", "*c1ccc(*)cc1"), [ORTHO, META, PARA_PHENYLENE], None),
+    ("C7H8O", ("*c1ccccc1*", "*c1cccc(*)c1", "*c1ccc(*)cc1"), [ORTHO, META, PARA_PHENYLENE], None),
+    ("C6H7N", ("*c1ccccn1", "*c1cccnc1", "*c1ccncc1"), [PYRIDIN_2_YL, PYRIDIN_3_YL, PYRIDIN_4_YL], None),
 ])
 def test_contracting_a_group_equals_filtering_afterwards(formula, fragments, reference, total):
     contracted = IsomerStream(formula, hints=[_group(*fragments)])

@@ -38,8 +38,9 @@ TABLE = {r["id"]: r for r in read_table("hints")}
 def _hints_of(row_id: str) -> list[Hint]:
     """The hints an identification of this known.tsv row reads (first normalisation, as it uses)."""
     row = ROWS[row_id]
-    observation, _ = observe(parse_formula(row["formula"]), read_peaks(row["peaks"]), row["solvent"] or None)
-    return read_hints(observation.peaks, observation.normalisations[0].counts)
+    formula = parse_formula(row["formula"])
+    observation, _ = observe(formula, read_peaks(row["peaks"]), row["solvent"] or None)
+    return read_hints(observation.peaks, observation.normalisations[0].counts, formula)
 
 
 def _names(row_id: str) -> set[str]:
@@ -57,6 +58,7 @@ EXAMPLES = {
     "isopropyl": ("isopropanol", "acetaldehyde", "a 1H quartet with a 3H doublet"),
     "para_ring": ("chlorotoluene", "benzaldehyde", "one 2H doublet, the other aromatic 2H a triplet"),
     "mono_ring": ("ethylbenzene", "p_xylene", "4 aromatic H, not 5"),
+    "di_ring": ("o_xylene", "ethylbenzene", "5 aromatic H, not 4"),
 }
 
 
@@ -122,6 +124,23 @@ def test_group_hint_claims_no_more_copies_than_the_formula_holds():
     assert [h.copies for h in four] == [2]
 
 
+def test_peaks_that_show_one_group_do_not_claim_a_second():
+    # 4-chlorotoluene (known.tsv): the two 2H doublets are a para ring; the same four aromatic H
+    # must not also claim a second, disubstituted ring
+    names = _names("chlorotoluene")
+    assert TABLE["para_ring"]["name"] in names
+    assert TABLE["di_ring"]["name"] not in names
+
+
+def test_four_aromatic_h_claim_no_ring_where_a_fused_heteroaromatic_is_possible():
+    # 2-methylbenzoxazole, C8H7NO, DBE 6 (typical CDCl3 values, from memory): its four aromatic H sit
+    # on a benzo ring fused to the oxazole, which the di_ring fragments do not draw
+    peaks = parse_peak_text("7.68-7.62 (m, 1H), 7.48-7.42 (m, 1H), 7.31-7.25 (m, 2H), 2.63 (s, 3H)").peaks
+    names = {h.name for h in read_hints(peaks, (1, 1, 2, 3), parse_formula("C8H7NO"))}
+    assert TABLE["di_ring"]["name"] not in names
+    assert TABLE["di_ring"]["name"] in {h.name for h in read_hints(peaks, (1, 1, 2, 3))}
+
+
 def test_hint_evidence_names_the_peaks_it_rests_on():
     ethyl = next(h for h in _hints_of("ethyl_acetate") if h.name == TABLE["ethyl"]["name"])
     assert "4.12" in ethyl.evidence and "1.26" in ethyl.evidence
@@ -153,6 +172,8 @@ GROUP_SMARTS = {
     "tert_butyl": ["[CH3][CH0]([CH3])([CH3])-*"],
     "para_ring": ["*-c1[cH][cH]c(-*)[cH][cH]1", "*-c1[cH][cH]n[cH][cH]1"],
     "mono_ring": ["*-c1[cH][cH][cH][cH][cH]1"],
+    "di_ring": ["*-c1[cH][cH][cH][cH]c1-*", "*-c1[cH]c(-*)[cH][cH][cH]1", "*-c1[cH][cH]c(-*)[cH][cH]1",
+                "*-c1[cH][cH][cH][cH]n1", "*-c1[cH][cH][cH]n[cH]1", "*-c1[cH][cH]n[cH][cH]1"],
 }
 NAME_TO_ID = {r["name"]: i for i, r in TABLE.items()}
 
