@@ -8,12 +8,13 @@ the much smaller graphs, and expands the vertex again.
 
 A structure holding more copies of the group than were contracted is reached
 once per non-equivalent choice of copies, so it is kept only when the expanded
-copies are the canonical ones: those whose atoms carry the smallest canonical
-ranks (RDKit canonical ranking without tie-breaking).  This is canonical augmentation in the sense of
+copies are the canonical ones: among the choices of disjoint copies, the one
+whose atoms carry the smallest canonical ranks (RDKit canonical ranking without
+tie-breaking).  This is canonical augmentation in the sense of
 B. D. McKay, "Isomorph-free exhaustive generation", J. Algorithms 1998, 26, 306,
-doi:10.1006/jagm.1997.0898.  Every copy that matches the group's pattern can be
-contracted, so the structure with the canonical copy contracted is always
-generated: nothing is lost.
+doi:10.1006/jagm.1997.0898.  Every choice of disjoint copies can be contracted,
+so the structure with the canonical choice contracted is always generated:
+nothing is lost.
 
 A fragment is written as SMILES with ``*`` for each port; all ports must be
 equivalent under the group's symmetry, so the expansion does not depend on
@@ -29,6 +30,7 @@ from __future__ import annotations
 from collections import Counter
 from dataclasses import dataclass
 from functools import cache
+from itertools import combinations
 from typing import NamedTuple
 
 from rdkit import Chem
@@ -111,21 +113,45 @@ class FragmentType:
         return (self.degree, 99, 0, "~" + self.fragment.smiles, 0)
 
 
-def are_canonical_copies(mol: Chem.Mol, family: tuple[Fragment, ...], placed: list[frozenset[int]],
-                         ranks: list[int]) -> bool:
-    """True when the ``placed`` copies of a group are those with the smallest canonical ranks.
+def is_canonical_placement(mol: Chem.Mol, placed: list[tuple[tuple[Fragment, ...], list[frozenset[int]]]],
+                           ranks: list[int]) -> bool:
+    """True when the placed copies are the canonical placement of the groups in ``mol``.
 
-    Each copy's key is the sorted tuple of its atoms' ranks
-    (``Chem.CanonicalRankAtoms(mol, breakTies=False)``); the k placed copies must
-    be copies of one of the ``family`` fragments and hold the k smallest keys.
-    Copies related by a symmetry of the molecule share their key, so any of them
-    is accepted.
+    ``placed`` lists, per group hint (its family of fragment variants, in a fixed
+    order), the atom sets of the copies the generator expanded.  A placement takes
+    that many pairwise disjoint copies of each group, disjoint across groups too (a
+    peak is evidence for one group only).  Each copy's key is the sorted tuple of its
+    atoms' canonical ranks (``Chem.CanonicalRankAtoms(mol, breakTies=False)``); the
+    canonical placement is the valid one whose keys, group by group, are
+    lexicographically smallest.  Placements related by a symmetry of the molecule
+    share their keys, so any of them is accepted.
     """
-    found = {copy for variant in family for copy in variant.copies(mol)}
-    if any(atoms not in found for atoms in placed):
-        return False
-    keys = sorted(tuple(sorted(ranks[a] for a in copy)) for copy in found)
-    return sorted(tuple(sorted(ranks[a] for a in atoms)) for atoms in placed) == keys[:len(placed)]
+    def key(copy: frozenset[int]) -> tuple[int, ...]:
+        return tuple(sorted(ranks[a] for a in copy))
+
+    options = []
+    for family, sets in placed:
+        found = {copy for variant in family for copy in variant.copies(mol)}
+        if any(atoms not in found for atoms in sets):
+            return False
+        options.append((sorted(found, key=key), len(sets)))
+    target = [sorted(key(atoms) for atoms in sets) for _, sets in placed]
+    return _smallest_placement(options, 0, frozenset(), key) == target
+
+
+def _smallest_placement(options, level: int, used: frozenset[int], key) -> list | None:
+    """Depth first over the groups: the first complete disjoint choice in key order."""
+    if level == len(options):
+        return []
+    copies, k = options[level]
+    for chosen in combinations(copies, k):
+        atoms = [a for copy in chosen for a in copy]
+        if len(set(atoms)) != len(atoms) or used.intersection(atoms):
+            continue
+        rest = _smallest_placement(options, level + 1, used.union(atoms), key)
+        if rest is not None:
+            return [sorted(key(c) for c in chosen), *rest]
+    return None
 
 
 @cache

@@ -31,7 +31,7 @@ from rdkit import Chem, RDLogger
 from . import _enum
 from .errors import InputError
 from .formula import Formula, _hill_order, parse_formula
-from .fragment import Fragment, FragmentType, are_canonical_copies
+from .fragment import Fragment, FragmentType, is_canonical_placement
 from .tables import read_table
 
 RDLogger.DisableLog("rdApp.*")
@@ -512,7 +512,8 @@ class IsomerStream:
             placed: dict[tuple, list[frozenset[int]]] = {}
             for t, atoms in copies:
                 placed.setdefault(t.family, []).append(atoms)
-            if not all(are_canonical_copies(mol, family, sets, ranks) for family, sets in placed.items()):
+            order = sorted(placed.items(), key=lambda fs: [f.smiles for f in fs[0]])
+            if not is_canonical_placement(mol, order, ranks):
                 return None
         elif record[-1]:
             smiles = Chem.MolToSmiles(mol)

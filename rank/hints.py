@@ -143,14 +143,16 @@ def hint_rules() -> tuple[_Rule, ...]:
     return tuple(rules)
 
 
-def _same_j(a: Peak, b: Peak) -> bool:
+def _j_gap(a: Peak, b: Peak) -> float:
+    """Smallest difference between a J of ``a`` and a J of ``b``; 0 when either gives none."""
     if not a.j or not b.j:
-        return True
-    return any(abs(x - y) <= 0.7 for x in a.j for y in b.j)
+        return 0.0
+    return min(abs(x - y) for x in a.j for y in b.j)
 
 
-def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int]) -> Hint | None:
-    pairs = list(enumerate(zip(peaks, counts)))
+def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int], claimed: set[int]) -> Hint | None:
+    """The rule's hint, if the peaks support it; a group rule uses no peak in ``claimed``."""
+    pairs = [(k, pc) for k, pc in enumerate(zip(peaks, counts)) if not (rule.fragments and k in claimed)]
     group = {"smarts": rule.smarts, "fragments": rule.fragments, "max_dbe": rule.max_dbe}
     if rule.kind == "count":
         used = [(k, p, n) for k, (p, n) in pairs if rule.first.fits(p, n)]
@@ -166,12 +168,14 @@ def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int]) -> Hint | 
         for i, (a, n) in pairs:
             if not rule.first.fits(a, n):
                 continue
-            for j, (b, m) in pairs:
-                if i != j and rule.second.fits(b, m) and _same_j(a, b):
-                    # the H counts may show several equal groups (4H q with 6H t: two ethyls)
-                    copies = min(n // min(rule.first.n_h), m // min(rule.second.n_h)) if rule.fragments else 1
-                    return Hint(rule.name, f"{a.label} with {b.label}", copies=max(copies, 1), peaks=(i, j),
-                                **group)
+            # the partner with the closest J (equal within 0.7 Hz when both give one)
+            partners = sorted((_j_gap(a, b), j, b, m) for j, (b, m) in pairs
+                              if i != j and rule.second.fits(b, m) and _j_gap(a, b) <= 0.7)
+            if partners:
+                _, j, b, m = partners[0]
+                # the H counts may show several equal groups (4H q with 6H t: two ethyls)
+                copies = min(n // min(rule.first.n_h), m // min(rule.second.n_h)) if rule.fragments else 1
+                return Hint(rule.name, f"{a.label} with {b.label}", copies=max(copies, 1), peaks=(i, j), **group)
         return None
     if rule.kind == "total":
         # peaks with a J above max_j (alkene H across a double bond) are set aside
@@ -198,8 +202,10 @@ def read_hints(peaks: Sequence[Peak], counts: Sequence[int], formula: Formula | 
     """
     if not any(counts):
         return []
-    hints, claimed = [], set()
-    for hint in (_apply(rule, peaks, counts) for rule in hint_rules()):
+    hints: list[Hint] = []
+    claimed: set[int] = set()
+    for rule in hint_rules():
+        hint = _apply(rule, peaks, counts, claimed)
         if hint is None:
             continue
         while formula is not None and hint.copies > 1 and not hint.fits(formula):
@@ -209,8 +215,6 @@ def read_hints(peaks: Sequence[Peak], counts: Sequence[int], formula: Formula | 
         if hint.fragments:
             # a peak is evidence for one group only: two group hints on the same peaks would
             # claim two groups where the spectrum shows one (table order decides)
-            if claimed & set(hint.peaks):
-                continue
             claimed |= set(hint.peaks)
         hints.append(hint)
     return hints

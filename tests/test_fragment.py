@@ -22,6 +22,7 @@ PHENYL = "*-c1[cH][cH][cH][cH][cH]1"
 PARA_PHENYLENE = "*-c1[cH][cH]c(-*)[cH][cH]1"
 PYRIDIN_4_YL = "*-c1[cH][cH]n[cH][cH]1"
 FORMYL = "[CH1](=O)-*"
+PROPYL = "[CH3][CH2][CH2]-*"
 ORTHO = "*-c1[cH][cH][cH][cH]c1-*"
 META = "*-c1[cH]c(-*)[cH][cH][cH]1"
 PYRIDIN_2_YL = "*-c1[cH][cH][cH][cH]n1"
@@ -43,6 +44,8 @@ def _filtered(formula: str, *patterns: list[str]) -> set[str]:
     ("C7H16", ("CC*",), [ETHYL], 9),               # OEIS A000602: 9 heptanes
     ("C8H18", ("CC*",), [ETHYL], 18),              # OEIS A000602: 18 octanes; many hold two ethyls
     ("C7H16", ("CC(C)*",), [ISOPROPYL], 9),        # 2,4-dimethylpentane holds two isopropyls
+    ("C8H18", ("CCC*",), [PROPYL], 18),            # octane and 4-methylheptane hold two propyls
+    ("C6H12O", ("CCC*",), [PROPYL], None),
     ("C6H12O", ("CC(C)(C)*",), [TERT_BUTYL], None),
     ("C5H10O", ("CC*",), [ETHYL], None),
     ("C5H10O", ("O=C*",), [FORMYL], None),          # aldehydes, formates and formamides alike
@@ -121,6 +124,7 @@ def _copies_at_least(formula: str, smarts: str, k: int) -> set[str]:
     ("C8H18", "CC*", ETHYL, 2, 18),          # OEIS A000602: 18 octanes
     ("C9H20", "CC*", ETHYL, 3, 35),          # OEIS A000602: 35 nonanes; 3,3-diethylpentane holds four
     ("C7H16", "CC(C)*", ISOPROPYL, 2, 9),    # 2,4-dimethylpentane
+    ("C9H20", "CCC*", PROPYL, 2, 35),        # nonane, 4-ethylheptane, 4,4-dimethylheptane, ...
     ("C6H14O", "CC*", ETHYL, 2, None),       # diethyl-substituted ethers and alcohols
 ])
 def test_contracting_several_copies_equals_counting_them_afterwards(formula, fragment, reference, copies, total):
@@ -131,3 +135,26 @@ def test_contracting_several_copies_equals_counting_them_afterwards(formula, fra
     assert made
     if total is not None:
         assert sum(1 for _ in IsomerStream(formula)) == total
+
+
+def _disjoint(formula: str, first: str, second: str) -> set[str]:
+    """The default space, keeping structures with a copy of each group that share no atom."""
+    a, b = Chem.MolFromSmarts(first), Chem.MolFromSmarts(second)
+    kept = set()
+    for iso in IsomerStream(formula):
+        ones = [set(m[:-1]) for m in iso.mol.GetSubstructMatches(a)]   # the port atom is not the group's
+        twos = [set(m[:-1]) for m in iso.mol.GetSubstructMatches(b)]
+        if any(not (x & y) for x in ones for y in twos):
+            kept.add(iso.smiles)
+    return kept
+
+
+@pytest.mark.parametrize("formula", ["C6H14O", "C6H12O2"])
+def test_a_group_inside_another_hint_s_group_is_not_placed_twice(formula):
+    # an ethyl group is part of every propyl chain: with both hints, the structure needs an ethyl
+    # and a propyl that share no atom (their peaks are different H)
+    stream = IsomerStream(formula, hints=[_group("CC*"), Hint("propyl", "test", fragments=("CCC*",))])
+    made = [iso.smiles for iso in stream]
+    assert len(made) == len(set(made))
+    assert set(made) == _disjoint(formula, ETHYL, PROPYL)
+    assert made
