@@ -18,6 +18,8 @@ RUNS = [
     ("C7H12O4", [("CC*", 2)], "diethyl malonate: 4H q with 6H t"),
     ("C13H10O", [("*c1ccccc1", 1)], "benzophenone: 10 aromatic H"),
     ("C10H14", [("CC(C)(C)*", 1), ("*c1ccccc1", 1)], "tert-butylbenzene"),
+    ("C12H16O3", [("CCC*", 1), ("*c1ccccc1* *c1cccc(*)c1 *c1ccc(*)cc1 *c1ccccn1 *c1cccnc1 *c1ccncc1", 1)],
+     "a butyl methoxybenzoate: sext/t and four aromatic H"),
 ]
 
 _CHILD = r"""
