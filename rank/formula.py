@@ -46,6 +46,15 @@ class Formula:
         """Degree of unsaturation, DBE = C - (H + X)/2 + (N + P)/2 + 1."""
         return int(_dbe(dict(self.counts)))
 
+    def minus(self, taken: dict[str, int]) -> Formula | None:
+        """The formula left after taking ``taken`` (element counts) out; None if it does not hold them."""
+        left = dict(self.counts)
+        for el, n in taken.items():
+            left[el] = left.get(el, 0) - n
+        if any(n < 0 for n in left.values()):
+            return None
+        return Formula(_hill_order({el: n for el, n in left.items() if n > 0}))
+
 
 def _dbe(c: dict[str, int]) -> Fraction:
     halogens = sum(c.get(x, 0) for x in HALOGENS)

@@ -89,10 +89,6 @@ class Fragment:
         return list({frozenset(m[i] for i in parsed.group_atoms)
                      for m in mol.GetSubstructMatches(parsed.pattern, uniquify=False, maxMatches=100_000)})
 
-    def smarts(self) -> str:
-        """The group's pattern as SMARTS (what a structure must contain)."""
-        return Chem.MolToSmarts(_parse(self.smiles).pattern)
-
 
 @dataclass(frozen=True)
 class FragmentType:
@@ -113,12 +109,11 @@ class FragmentType:
         return (self.degree, 99, 0, "~" + self.fragment.smiles, 0)
 
 
-def is_canonical_placement(mol: Chem.Mol, placed: list[tuple[tuple[Fragment, ...], list[frozenset[int]]]],
-                           ranks: list[int]) -> bool:
-    """True when the placed copies are the canonical placement of the groups in ``mol``.
+def is_canonical_placement(mol: Chem.Mol, copies: list[tuple[FragmentType, frozenset[int]]]) -> bool:
+    """True when the expanded copies are the canonical placement of the groups in ``mol``.
 
-    ``placed`` lists, per group hint (its family of fragment variants, in a fixed
-    order), the atom sets of the copies the generator expanded.  A placement takes
+    ``copies`` holds each vertex the generator expanded with its atoms; copies of
+    one hint share its family of fragment variants.  A placement takes
     that many pairwise disjoint copies of each group, disjoint across groups too (a
     peak is evidence for one group only).  Each copy's key is the sorted tuple of its
     atoms' canonical ranks (``Chem.CanonicalRankAtoms(mol, breakTies=False)``); the
@@ -126,9 +121,15 @@ def is_canonical_placement(mol: Chem.Mol, placed: list[tuple[tuple[Fragment, ...
     lexicographically smallest.  Placements related by a symmetry of the molecule
     share their keys, so any of them is accepted.
     """
+    ranks = list(Chem.CanonicalRankAtoms(mol, breakTies=False))
+
     def key(copy: frozenset[int]) -> tuple[int, ...]:
         return tuple(sorted(ranks[a] for a in copy))
 
+    by_family: dict[tuple[Fragment, ...], list[frozenset[int]]] = {}
+    for ftype, atoms in copies:
+        by_family.setdefault(ftype.family, []).append(atoms)
+    placed = sorted(by_family.items(), key=lambda fs: [f.smiles for f in fs[0]])
     options = []
     for family, sets in placed:
         found = {copy for variant in family for copy in variant.copies(mol)}

@@ -22,7 +22,7 @@ import time
 from collections import Counter
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
-from functools import cache
+from functools import cache, cached_property
 from itertools import combinations_with_replacement, product
 from typing import NamedTuple
 
@@ -30,7 +30,7 @@ from rdkit import Chem, RDLogger
 
 from . import _enum
 from .errors import InputError
-from .formula import Formula, _hill_order, parse_formula
+from .formula import Formula, parse_formula
 from .fragment import Fragment, FragmentType, is_canonical_placement
 from .tables import read_table
 
@@ -318,13 +318,17 @@ class IsomerStream:
         single vertex (a FragmentType); what the contraction removes is estimated
         hint by hint and counted in ``hinted``.
         """
+        self.hinted.update(self._removed_by_groups)
+        yield from self._runs([h for h in self.hints if h.fragments], True)
+
+    @cached_property
+    def _removed_by_groups(self) -> Counter:
+        """Estimated structures each group hint removes, taking the group hints one by one."""
         grouped = [h for h in self.hints if h.fragments]
-        if grouped:
-            levels = [sum(self._enumerator(types).estimate(16, 1) for types in self._runs(grouped[:k], False))
-                      for k in range(len(grouped) + 1)]
-            for hint, before, after in zip(grouped, levels, levels[1:]):
-                self.hinted[hint.name] += max(0, round(before - after))
-        yield from self._runs(grouped, True)
+        levels = [sum(self._enumerator(types).estimate(16, 1) for types in self._runs(grouped[:k], False))
+                  for k in range(len(grouped) + 1)] if grouped else []
+        return Counter({h.name: max(0, round(before - after))
+                        for h, before, after in zip(grouped, levels, levels[1:])})
 
     def _runs(self, grouped: list, tally: bool) -> Iterator[list[tuple[AtomType | FragmentType, int]]]:
         for formula, groups in _contractions(self.formula, grouped):
@@ -508,12 +512,7 @@ class IsomerStream:
             if record[-1] and not _is_kekule_representative(_assemble(kinds, record, expand=False)[0],
                                                             _assemble(kinds, record, False, False)[0]):
                 return None
-            ranks = list(Chem.CanonicalRankAtoms(mol, breakTies=False))
-            placed: dict[tuple, list[frozenset[int]]] = {}
-            for t, atoms in copies:
-                placed.setdefault(t.family, []).append(atoms)
-            order = sorted(placed.items(), key=lambda fs: [f.smiles for f in fs[0]])
-            if not is_canonical_placement(mol, order, ranks):
+            if not is_canonical_placement(mol, copies):
                 return None
         elif record[-1]:
             smiles = Chem.MolToSmiles(mol)
@@ -613,14 +612,11 @@ def _contractions(formula: Formula, grouped: list) -> Iterator[tuple[Formula, li
     families = [tuple(Fragment(s) for s in h.fragments) for h in grouped]
     picks = [combinations_with_replacement(family, h.copies) for h, family in zip(grouped, families)]
     for choice in product(*picks):
-        left = Counter(dict(formula.counts))
-        for fragment in (f for chosen in choice for f in chosen):
-            left.subtract(fragment.formula_counts())
-        if any(n < 0 for n in left.values()):
+        left = formula.minus(sum((f.formula_counts() for chosen in choice for f in chosen), Counter()))
+        if left is None:
             continue
         merged = Counter(FragmentType(f, family) for chosen, family in zip(choice, families) for f in chosen)
-        yield (Formula(_hill_order({el: n for el, n in left.items() if n > 0})),
-               sorted(merged.items(), key=lambda tc: tc[0].sort_key()))
+        yield left, sorted(merged.items(), key=lambda tc: tc[0].sort_key())
 
 
 def isomers(formula: str, **options) -> Iterator[str]:

@@ -77,7 +77,7 @@ class Hint:
         if self.max_dbe is not None and formula.dbe > self.max_dbe:
             return False
         return not self.fragments or any(
-            all(formula[el] >= self.copies * n for el, n in Fragment(s).formula_counts().items())
+            formula.minus({el: self.copies * n for el, n in Fragment(s).formula_counts().items()}) is not None
             for s in self.fragments)
 
     def pattern(self) -> Chem.Mol | None:

@@ -91,3 +91,9 @@ def test_bad_formula_raises_input_error_with_one_line_reason(text, why):
 def test_unknown_element_message_names_the_element():
     with pytest.raises(InputError, match="Xe"):
         parse_formula("C4H8Xe")
+
+
+def test_taking_a_group_out_of_a_formula():
+    # ethyl 4-aminobenzoate C9H11NO2 less an ethyl group C2H5 leaves C7H6NO2 (arithmetic)
+    assert parse_formula("C9H11NO2").minus({"C": 2, "H": 5}).hill == "C7H6NO2"
+    assert parse_formula("C5H5N").minus({"C": 6, "H": 5}) is None
