@@ -159,11 +159,11 @@ def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int], claimed: s
         if not used:
             return None
         groups = sum(n // rule.h_per_group for _, _, n in used)
-        return Hint(rule.name, ", ".join(p.label for _, p, _ in used), rule.carbon_h, groups,
+        return Hint(rule.name, ", ".join(p.caption for _, p, _ in used), rule.carbon_h, groups,
                     double_bond=rule.double_bond, peaks=tuple(k for k, _, _ in used))
     if rule.kind == "peak":
         used = [(k, p) for k, (p, n) in pairs if rule.first.fits(p, n)]
-        return Hint(rule.name, used[0][1].label, peaks=(used[0][0],), **group) if used else None
+        return Hint(rule.name, used[0][1].caption, peaks=(used[0][0],), **group) if used else None
     if rule.kind == "pair":
         for i, (a, n) in pairs:
             if not rule.first.fits(a, n):
@@ -175,7 +175,7 @@ def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int], claimed: s
                 _, j, b, m = partners[0]
                 # the H counts may show several equal groups (4H q with 6H t: two ethyls)
                 copies = min(n // min(rule.first.n_h), m // min(rule.second.n_h)) if rule.fragments else 1
-                return Hint(rule.name, f"{a.label} with {b.label}", copies=max(copies, 1), peaks=(i, j), **group)
+                return Hint(rule.name, f"{a.caption} with {b.caption}", copies=max(copies, 1), peaks=(i, j), **group)
         return None
     if rule.kind == "total":
         # peaks with a J above max_j (alkene H across a double bond) are set aside
@@ -183,7 +183,7 @@ def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int], claimed: s
                   and not p.broad and (rule.max_j is None or all(j <= rule.max_j for j in p.j))]
         if not inside or sum(n for _, _, n in inside) not in rule.first.n_h:
             return None
-        return Hint(rule.name, ", ".join(p.label for _, p, _ in inside), peaks=tuple(k for k, _, _ in inside),
+        return Hint(rule.name, ", ".join(p.caption for _, p, _ in inside), peaks=tuple(k for k, _, _ in inside),
                     **group)
     raise ValueError(f"rules/hints.tsv row {rule.id}: unknown kind {rule.kind!r}")
 

@@ -167,7 +167,7 @@ def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height:
     for p in dropped:
         parts.append(f'<line x1="{x(p.shift):.1f}" y1="{mid}" x2="{x(p.shift):.1f}" y2="{mid - scale:.1f}" '
                      f'stroke="#999" stroke-width="2" stroke-dasharray="3 2">'
-                     f'<title>{escape(p.label)}, dropped</title></line>')
+                     f'<title>{escape(p.caption)}, dropped</title></line>')
     for i, p in enumerate(peaks):
         color = _color(owner[i]) if i in owner else "#999"
         h = observed[i] * scale
@@ -175,7 +175,7 @@ def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height:
             parts.append(f'<rect x="{x(p.high):.1f}" y="{mid - h:.1f}" width="{x(p.low) - x(p.high):.1f}" '
                          f'height="{h:.1f}" fill="{color}" opacity="0.35"/>')
         parts.append(f'<line x1="{x(p.shift):.1f}" y1="{mid}" x2="{x(p.shift):.1f}" y2="{mid - h:.1f}" '
-                     f'stroke="{color}" stroke-width="2"><title>{escape(p.label)}, {observed[i]}H</title></line>')
+                     f'stroke="{color}" stroke-width="2"><title>{escape(p.caption)}, {observed[i]}H</title></line>')
     for i, s in enumerate(signals):
         h = s.n_h * scale
         parts.append(f'<line x1="{x(s.shift):.1f}" y1="{mid}" x2="{x(s.shift):.1f}" y2="{mid + h:.1f}" '
@@ -225,10 +225,10 @@ def report_html(result: Shortlist, title: str | None = None, shown: int = 5) -> 
     obs = result.observation
     heading = escape(title or f"peakrank short list for {result.formula.hill}")
     used = "".join(
-        f"<tr><td class='num'>{p.shift:.2f}</td><td>{escape(p.label)}</td>"
+        f"<tr><td class='num'>{p.shift:.2f}</td><td>{escape(p.caption)}</td>"
         f"<td class='num'>{'' if p.integral is None else f'{p.integral:g}'}</td>"
-        f"<td>{escape(', '.join(f'{j:g}' for j in p.j))}</td></tr>" for p in obs.peaks)
-    dropped = "".join(f"<li>{escape(d.peak.label)}: {escape(d.reason)}</li>" for d in result.dropped)
+        f"<td>{escape(', '.join(f'{j:g}' for j in p.j))}</td><td>{escape(p.label)}</td></tr>" for p in obs.peaks)
+    dropped = "".join(f"<li>{escape(d.peak.caption)}: {escape(d.reason)}</li>" for d in result.dropped)
     hints = "".join(f"<li>{escape(h.claim)} from {escape(h.evidence)}: removed about "
                     f"{result.hinted.get(h.name, 0):,} structures</li>" for h in result.hints)
     summary = "".join(
@@ -243,7 +243,7 @@ def report_html(result: Shortlist, title: str | None = None, shown: int = 5) -> 
         f"<p>Formula <strong>{escape(result.formula.hill)}</strong>, DBE {result.formula.dbe}; "
         f"solvent {escape(obs.solvent)}; {obs.field_mhz:g} MHz; integrals "
         f"{escape(result.candidates[0].scored.normalisation.text if result.candidates else obs.normalisations[0].text)}.</p>"
-        "<table><tr><th>δ / ppm</th><th>peak</th><th>H</th><th>J / Hz</th></tr>" + used + "</table>"
+        "<table><tr><th>δ / ppm</th><th>peak</th><th>H</th><th>J / Hz</th><th>label</th></tr>" + used + "</table>"
         + (f"<p>Dropped:</p><ul>{dropped}</ul>" if dropped else "<p>No peak dropped.</p>")
         + (f"<p>Hints applied (turn off with --no-hints):</p><ul>{hints}</ul>" if hints else "")
         + f"<p>{result.explored:,} candidates scored; search {escape(state)}.</p>"

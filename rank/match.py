@@ -14,11 +14,14 @@ The misfit of a candidate is
 
     S = (1/H) Σ_protons min(((δ_obs - δ_pred) / σ)^2, z_cap)   shift residuals
     I = w_I · Σ_classes (protons not placed in the class's main peak)   integrals
-    M = w_M · (Σ_classes multiplicity penalty (0, 0.3, 0.5 or 1; the lower of the
-                 predicted pattern and the pattern without couplings under hidden_j)
+    M = w_M · (Σ_classes multiplicity penalty (0, 0.3, 0.5 or 1; the lowest over the
+                 predicted pattern with and without its couplings under hidden_j,
+                 against the observed one with and without its couplings under
+                 small_observed_j; nothing when the multiplicity was not reported)
                + 0.5 per sharp singlet holding two classes coupled to each other
                + 0.5 per multiplet holding nothing but one uncoupled class)
     J = w_J · Σ_classes coupling-constant penalty (0..1)           J values
+               (an observed J under small_observed_j with no predicted partner is left out)
     C = w_C · (observed peaks left empty + predicted groups beyond one per peak)
 
 δ_obs is the nearest point of the observed peak or range; σ is the
@@ -60,6 +63,10 @@ class Settings:
     hidden_j: float = 2.5
     """Predicted couplings below this many Hz may go unreported: a meta coupling makes a
     predicted dd that papers write as d (common practice); the pattern without them costs nothing."""
+    small_observed_j: float = 3.0
+    """Observed couplings below this many Hz (allylic, benzylic, meta, W: four- and five-bond
+    couplings, common practice) may be missing from a first-order prediction: the observed pattern
+    without them costs nothing, and such a J without a predicted partner adds no J penalty."""
 
 
 DEFAULT_SETTINGS = Settings()
@@ -105,16 +112,17 @@ def _distance(signal_shift: float, peak: Peak) -> float:
 
 
 @cache
-def multiplicity_penalty(observed: str, predicted: str, exchangeable: bool) -> float:
+def multiplicity_penalty(observed: str | None, predicted: str, exchangeable: bool) -> float:
     """0 when the observed pattern fits the predicted first-order pattern, up to 1.
 
-    An ``m`` on either side says nothing and costs nothing; a singlet against a
+    An ``m`` on either side, or an observed multiplicity not reported (None),
+    says nothing and costs nothing; a singlet against a
     class coupled to two or more H costs 1; one coupling partner too many or
     too few costs 0.5; the right number of partners in another grouping
     (``q`` against ``dt``) costs 0.3.
     """
     if exchangeable:
-        return 0.0 if observed in ("s", "br s", "br", "m") else 0.5
+        return 0.0 if observed in (None, "s", "br s", "br", "m") else 0.5
     obs, pred = coupling_groups(observed), coupling_groups(predicted)
     if obs is None or pred is None:
         return 0.0
@@ -130,10 +138,12 @@ _NAMES = {1: "d", 2: "t", 3: "q", 4: "quint", 5: "sext", 6: "sept"}
 
 
 @cache
-def without_small_couplings(multiplicity: str, j: tuple[float, ...], below: float) -> str:
+def without_small_couplings(multiplicity: str | None, j: tuple[float, ...], below: float) -> str | None:
     """The first-order pattern left when couplings under ``below`` Hz are not resolved.
 
-    ``j`` holds one J per partner group, largest first, as the pattern's letters do:
+    ``j`` holds one J per partner group, in the order of the pattern's letters (predicted
+    patterns put the largest first; papers write J in the letters' order, ``dq, J = 15.6, 1.7 Hz``).
+    Without one J per letter the pattern is returned as it is:
     ``without_small_couplings("dd", (7.8, 1.8), 2.5)`` gives ``"d"``.
     """
     groups = coupling_groups(multiplicity)
@@ -147,15 +157,23 @@ def without_small_couplings(multiplicity: str, j: tuple[float, ...], below: floa
     return "".join(_NAMES[n] for n in kept) if all(n <= 3 for n in kept) else "m"
 
 
-def coupling_penalty(observed: tuple[float, ...], predicted: tuple[float, ...], tolerance: float) -> float:
-    """Mean over observed J of how far the nearest predicted J lies beyond ``tolerance`` Hz, in 3 Hz steps."""
+def coupling_penalty(observed: tuple[float, ...], predicted: tuple[float, ...], tolerance: float,
+                     small: float = 0.0) -> float:
+    """Mean over observed J of how far the nearest predicted J lies beyond ``tolerance`` Hz, in 3 Hz steps.
+
+    An observed J below ``small`` Hz with no predicted J within ``tolerance`` is a long-range
+    coupling the prediction lacks: it is left out of the mean.
+
+    >>> coupling_penalty((15.6, 1.7), (15.6,), 1.5, small=3.0)
+    0.0
+    """
     if not observed or not predicted:
         return 0.0
-    total = 0.0
-    for j in observed:
-        gap = min(abs(j - p) for p in predicted)
-        total += min(1.0, max(0.0, gap - tolerance) / 3.0)
-    return total / len(observed)
+    gaps = [min(abs(j - p) for p in predicted) for j in observed]
+    counted = [g for j, g in zip(observed, gaps) if not (j < small and g > tolerance)]
+    if not counted:
+        return 0.0
+    return sum(min(1.0, max(0.0, g - tolerance) / 3.0) for g in counted) / len(counted)
 
 
 def _mutually_coupled(signals, held: list[int]) -> bool:
@@ -210,10 +228,13 @@ def match(signals, peaks: tuple[Peak, ...], counts: tuple[int, ...], missing: in
     distance = np.maximum(np.maximum(lows[None, :] - shifts[:, None], shifts[:, None] - highs[None, :]), 0.0)
     z2 = np.minimum((distance / sigmas[:, None]) ** 2, settings.z_cap)
     coarse = [without_small_couplings(sg.multiplicity, sg.j, settings.hidden_j) for sg in signals]
-    pen_mult = np.array([[min(multiplicity_penalty(pk.multiplicity, sg.multiplicity, sg.exchangeable),
-                              multiplicity_penalty(pk.multiplicity, rough, sg.exchangeable))
-                          for pk in peaks] for sg, rough in zip(signals, coarse)]).reshape(n_sig, n_peaks)
-    pen_j = np.array([[coupling_penalty(pk.j, sg.j, settings.j_tolerance) if pk.j and sg.j else 0.0
+    seen = [{pk.multiplicity, without_small_couplings(pk.multiplicity, pk.j, settings.small_observed_j)}
+            for pk in peaks]
+    pen_mult = np.array([[min(multiplicity_penalty(o, p, sg.exchangeable) for o in forms
+                              for p in (sg.multiplicity, rough))
+                          for forms in seen] for sg, rough in zip(signals, coarse)]).reshape(n_sig, n_peaks)
+    pen_j = np.array([[coupling_penalty(pk.j, sg.j, settings.j_tolerance, settings.small_observed_j)
+                       if pk.j and sg.j else 0.0
                        for pk in peaks] for sg in signals]).reshape(n_sig, n_peaks)
     exchangeable = np.array([sg.exchangeable for sg in signals])
     n_per = np.array([sg.n_h for sg in signals], dtype=float)

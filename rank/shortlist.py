@@ -36,6 +36,7 @@ from .peaks import (
     Normalisation,
     Peak,
     Spectrum,
+    drop_labelled_peaks,
     drop_solvent_signals,
     find_solvent,
     normalise,
@@ -134,13 +135,18 @@ def observe(formula: Formula, spectrum: Spectrum, solvent: str | None = None,
             field_mhz: float | None = None, keep_all_peaks: bool = False) -> tuple[Observation, tuple[Dropped, ...]]:
     """Drop solvent signals and find the plausible integral normalisations.
 
+    Peaks the chemist labelled as solvent, water or reference are always dropped;
+    ``keep_all_peaks`` keeps the unlabelled ones that sit on a solvent's values.
+
     Raises InputError when nothing is left or the integrals cannot fit the formula.
     """
     chosen = find_solvent(solvent or spectrum.solvent or "CDCl3")
+    peaks, labelled = drop_labelled_peaks(spectrum.peaks)
     if keep_all_peaks:
-        peaks, dropped = spectrum.peaks, ()
+        dropped = labelled
     else:
-        peaks, dropped = drop_solvent_signals(spectrum.peaks, chosen)
+        peaks, by_value = drop_solvent_signals(peaks, chosen)
+        dropped = labelled + by_value
     if not peaks:
         raise InputError("no peaks left after dropping solvent, water and TMS signals")
     hydrogens = formula["H"]

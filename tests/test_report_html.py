@@ -248,7 +248,7 @@ def test_observed_stick_takes_the_colour_of_its_assigned_class(result):
         for p in c.scored.match.pairings:
             if p.peak is None:
                 continue
-            label = result.observation.peaks[p.peak].label
+            label = result.observation.peaks[p.peak].caption
             assert _observed(sticks, label).get("stroke") == predicted[p.signal]
 
 
