@@ -1,6 +1,7 @@
 """The demo scenario: four invented unknowns, each identified end to end.
 
-The samples, their formulas and peak files are in ``demo/`` (see its README).
+The samples, their formulas and peak files are in ``demo/`` (see its README),
+installed as the package ``rank.demo_data`` and read through ``importlib.resources``.
 Reports go to a new folder; an existing folder is never written into.
 """
 
@@ -8,26 +9,31 @@ from __future__ import annotations
 
 import csv
 from dataclasses import dataclass
+from importlib.resources import as_file, files
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from .html import report_html
 from .report import terminal_text
 from .shortlist import Identifier, Shortlist
 
-_SOURCE_DEMO = Path(__file__).resolve().parent.parent / "demo"
-_PACKAGED_DEMO = Path(__file__).resolve().parent / "demo"
+if TYPE_CHECKING:
+    from importlib.resources.abc import Traversable
+
+DEMO_PACKAGE = "rank.demo_data"
 
 
 @dataclass(frozen=True)
 class Unknown:
     sample: str
     formula: str
-    peaks: Path
+    peaks: Traversable
     note: str
 
 
-def demo_dir() -> Path:
-    return _SOURCE_DEMO if _SOURCE_DEMO.is_dir() else _PACKAGED_DEMO
+def demo_dir() -> Traversable:
+    """The packaged ``demo/`` folder (``rank.demo_data``)."""
+    return files(DEMO_PACKAGE)
 
 
 def unknowns() -> list[Unknown]:
@@ -55,7 +61,8 @@ def run_demo(out: Path, top: int = 5, workers: int = 1, echo=print) -> list[tupl
     done = []
     for u in unknowns():
         echo(f"=== {u.sample}: {u.note} ({u.formula}, peaks from {u.peaks.name}) ===")
-        result = Identifier(top=top, workers=workers).identify(u.formula, str(u.peaks))
+        with as_file(u.peaks) as peaks_file:
+            result = Identifier(top=top, workers=workers).identify(u.formula, str(peaks_file))
         echo(terminal_text(result))
         path = folder / f"{u.sample}.html"
         path.write_text(report_html(result, title=f"{u.sample}: {u.note}"), encoding="utf-8")

@@ -1,5 +1,9 @@
 """Read the chemistry tables in ``rules/``: tab-separated, ``#`` comment lines first.
 
+The folder ``rules/`` is installed as the package ``rank.rules`` and read through
+``importlib.resources``, so an editable install and an installed wheel read the
+same files in the same way.
+
 >>> rows = read_table("valences")
 >>> rows[0]["element"], rows[0]["valence"]
 ('C', '4')
@@ -9,21 +13,30 @@ from __future__ import annotations
 
 import csv
 from functools import cache
-from pathlib import Path
+from importlib.resources import files
+from typing import TYPE_CHECKING
 
-_SOURCE_RULES = Path(__file__).resolve().parent.parent / "rules"
-_PACKAGED_RULES = Path(__file__).resolve().parent / "rules"
+if TYPE_CHECKING:
+    from importlib.resources.abc import Traversable
+
+RULES_PACKAGE = "rank.rules"
 
 
-def rules_dir() -> Path:
-    """The folder holding the tables: the source tree's ``rules/`` or the installed copy."""
-    return _SOURCE_RULES if _SOURCE_RULES.is_dir() else _PACKAGED_RULES
+def rules_dir() -> Traversable:
+    """The packaged ``rules/`` folder (``rank.rules``), readable with ``/``, ``read_text`` and ``iterdir``.
+
+    Use ``importlib.resources.as_file`` where a real file system path is needed.
+    """
+    return files(RULES_PACKAGE)
+
+
+def _table_text(name: str) -> str:
+    return (rules_dir() / f"{name}.tsv").read_text(encoding="utf-8")
 
 
 @cache
 def _load(name: str) -> tuple[tuple[str, ...], tuple[tuple[str, ...], ...]]:
-    path = rules_dir() / f"{name}.tsv"
-    lines = [ln for ln in path.read_text(encoding="utf-8").splitlines() if ln.strip()]
+    lines = [ln for ln in _table_text(name).splitlines() if ln.strip()]
     body = [ln for ln in lines if not ln.startswith("#")]
     rows = list(csv.reader(body, delimiter="\t", quoting=csv.QUOTE_NONE))
     header, data = tuple(rows[0]), rows[1:]
@@ -42,9 +55,4 @@ def read_table(name: str) -> list[dict[str, str]]:
 
 def table_notes(name: str) -> list[str]:
     """The comment lines heading a table (its sources)."""
-    path = rules_dir() / f"{name}.tsv"
-    return [
-        ln.lstrip("# ").rstrip()
-        for ln in path.read_text(encoding="utf-8").splitlines()
-        if ln.startswith("#")
-    ]
+    return [ln.lstrip("# ").rstrip() for ln in _table_text(name).splitlines() if ln.startswith("#")]

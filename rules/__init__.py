@@ -1,0 +1,1 @@
+"""The chemistry tables, installed as ``rank.rules`` and read by ``rank.tables``."""
