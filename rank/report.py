@@ -2,6 +2,11 @@
 
 Every number shown can be traced: a candidate's misfit is the sum of its parts,
 and each assigned signal carries the arithmetic of its predicted shift.
+
+JSON and CSV numbers carry the digits that mean something: shifts 0.001 ppm,
+couplings 0.01 Hz, integrals 5 significant digits, z 0.01, penalties 0.0001,
+confidence 0.0001. The misfit and its parts keep the 6 decimals the ranking
+compares (equal misfits are ties), so the parts add up to the misfit shown.
 """
 
 from __future__ import annotations
@@ -11,6 +16,22 @@ from pathlib import Path
 
 from .errors import InputError
 from .shortlist import CAUTION, Candidate, Shortlist
+
+SHIFT_DECIMALS = 3        # ppm
+COUPLING_DECIMALS = 2     # Hz
+INTEGRAL_DIGITS = 5       # significant digits; integrals may be relative or absolute
+MISFIT_DECIMALS = 6       # the precision scoring rounds to (rank.match, rank.shortlist)
+PENALTY_DECIMALS = 4
+CONFIDENCE_DECIMALS = 4
+Z_DECIMALS = 2
+
+
+def _ppm(value: float | None) -> float | None:
+    return None if value is None else round(value, SHIFT_DECIMALS)
+
+
+def _significant(value: float | None, digits: int) -> float | None:
+    return None if value is None else float(f"{value:.{digits}g}")
 
 
 def assignment_rows(candidate: Candidate, result: Shortlist) -> list[dict]:
@@ -22,7 +43,7 @@ def assignment_rows(candidate: Candidate, result: Shortlist) -> list[dict]:
         peak = result.observation.peaks[p.peak] if p.peak is not None else None
         rows.append({
             "signal": p.signal,
-            "predicted_shift": round(sig.shift, 2),
+            "predicted_shift": _ppm(sig.shift),
             "n_h": sig.n_h,
             "predicted_multiplicity": sig.multiplicity,
             "family": sig.family,
@@ -30,12 +51,12 @@ def assignment_rows(candidate: Candidate, result: Shortlist) -> list[dict]:
             "atoms": list(sig.atoms),
             "sigma": sig.sigma,
             "peak": p.peak,
-            "observed_shift": None if peak is None else peak.shift,
+            "observed_shift": None if peak is None else _ppm(peak.shift),
             "observed_multiplicity": None if peak is None else peak.multiplicity,
             "protons_in_peak": p.protons,
-            "z": round(p.z, 2),
-            "multiplicity_penalty": p.multiplicity_penalty,
-            "coupling_penalty": round(p.coupling_penalty, 3),
+            "z": round(p.z, Z_DECIMALS),
+            "multiplicity_penalty": round(p.multiplicity_penalty, PENALTY_DECIMALS),
+            "coupling_penalty": round(p.coupling_penalty, PENALTY_DECIMALS),
             "explanation": sig.explanation,
         })
     return rows
@@ -53,7 +74,7 @@ def to_json(result: Shortlist) -> dict:
         "field_mhz": obs.field_mhz,
         "peaks_used": [_peak_json(p) for p in obs.peaks],
         "peaks_dropped": [{**_peak_json(d.peak), "reason": d.reason} for d in result.dropped],
-        "normalisations": [{"counts": list(n.counts), "missing": n.missing, "error": round(n.error, 4)}
+        "normalisations": [{"counts": list(n.counts), "missing": n.missing, "error": round(n.error, PENALTY_DECIMALS)}
                            for n in obs.normalisations],
         "hints": [{"name": h.name, "copies": h.copies, "evidence": h.evidence,
                    "removed": result.hinted.get(h.name, 0)}
@@ -65,10 +86,10 @@ def to_json(result: Shortlist) -> dict:
                 "rank": c.rank,
                 "smiles": c.smiles,
                 "inchikey": c.inchikey,
-                "misfit": c.misfit,
-                "confidence": round(c.confidence, 4),
+                "misfit": round(c.misfit, MISFIT_DECIMALS),
+                "confidence": round(c.confidence, CONFIDENCE_DECIMALS),
                 "tied": c.tied,
-                "parts": c.scored.match.parts._asdict(),
+                "parts": {k: round(v, MISFIT_DECIMALS) for k, v in c.scored.match.parts._asdict().items()},
                 "normalisation": {"counts": list(c.scored.normalisation.counts),
                                   "missing": c.scored.normalisation.missing},
                 "reason": c.reason,
@@ -81,8 +102,16 @@ def to_json(result: Shortlist) -> dict:
 
 
 def _peak_json(p) -> dict:
-    return {"shift": p.shift, "low": p.low, "high": p.high, "integral": p.integral,
-            "multiplicity": p.multiplicity, "j": list(p.j)}
+    return {"shift": _ppm(p.shift), "low": _ppm(p.low), "high": _ppm(p.high),
+            "integral": _significant(p.integral, INTEGRAL_DIGITS),
+            "multiplicity": p.multiplicity, "j": [round(j, COUPLING_DECIMALS) for j in p.j],
+            "label": p.label}
+
+
+def _peak_caption(p) -> str:
+    """``4.12 (q) 2H [OCH2]``: the peak as read, with its H count and the chemist's label."""
+    text = f"{p.caption} {p.integral:g}H" if p.integral else p.caption
+    return f"{text} [{p.label}]" if p.label else text
 
 
 def write_text_file(path: str, text: str, force: bool) -> None:
@@ -101,7 +130,10 @@ def json_text(result: Shortlist) -> str:
 
 def csv_text(result: Shortlist) -> str:
     frame = result.to_frame()
-    return frame.to_csv(index=False)
+    decimals = {"misfit": MISFIT_DECIMALS, "confidence": CONFIDENCE_DECIMALS, "shift": MISFIT_DECIMALS,
+                "integral": MISFIT_DECIMALS, "multiplicity": MISFIT_DECIMALS, "coupling": MISFIT_DECIMALS,
+                "count": MISFIT_DECIMALS}
+    return frame.round({k: v for k, v in decimals.items() if k in frame.columns}).to_csv(index=False)
 
 
 def terminal_text(result: Shortlist, detail: int = 1) -> str:
@@ -110,10 +142,9 @@ def terminal_text(result: Shortlist, detail: int = 1) -> str:
     lines = [f"CAUTION: {CAUTION}", ""]
     lines.append(f"formula {result.formula.hill} (DBE {result.formula.dbe}), solvent {obs.solvent}, "
                  f"{obs.field_mhz:g} MHz")
-    lines.append("peaks used: " + "; ".join(f"{p.label} {p.integral:g}H" if p.integral else p.label
-                                             for p in obs.peaks))
+    lines.append("peaks used: " + "; ".join(_peak_caption(p) for p in obs.peaks))
     for d in result.dropped:
-        lines.append(f"dropped: {d.peak.label} ({d.reason})")
+        lines.append(f"dropped: {d.peak.caption} ({d.reason})")
     norm = result.candidates[0].scored.normalisation if result.candidates else obs.normalisations[0]
     lines.append(f"integrals: {norm.text}")
     for h in result.hints:
