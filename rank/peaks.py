@@ -276,6 +276,39 @@ def coupling_groups(multiplicity: str | None) -> tuple[int, ...] | None:
     return None
 
 
+def format_peaks(peaks) -> str:
+    """The peaks in the paper style :func:`parse_peak_text` reads back.
+
+    >>> format_peaks(parse_peak_text("4.12 (q, J = 7.1 Hz, 2H, OCH2), 7.35-7.20 (m, 5H), 2.14 (3H)").peaks)
+    '4.12 (q, J = 7.1 Hz, 2H, OCH2), 7.35–7.20 (m, 5H), 2.14 (3H)'
+    """
+    return ", ".join(_format_peak(p) for p in peaks)
+
+
+def _format_peak(p: Peak) -> str:
+    where = f"{_ppm_text(p.high)}–{_ppm_text(p.low)}" if p.high > p.low else _ppm_text(p.shift)
+    inside = []
+    if p.multiplicity:
+        inside.append(p.multiplicity)
+    if p.j:
+        inside.append("J = " + ", ".join(f"{j:g}" for j in p.j) + " Hz")
+    if p.integral is not None:
+        inside.append(f"{int(p.integral)}H" if p.counted else f"{_relative_text(p.integral)}H")
+    if p.label:
+        inside.append(p.label)
+    return f"{where} ({', '.join(inside)})" if inside else where
+
+
+def _ppm_text(value: float) -> str:
+    return f"{value:.2f}" if round(value, 2) == value else f"{value:.4f}".rstrip("0")
+
+
+def _relative_text(value: float) -> str:
+    """A relative integral always with a decimal point, so that it reads back as relative."""
+    text = f"{value:.6f}".rstrip("0")
+    return text + "0" if text.endswith(".") else text
+
+
 def _number(text: str) -> float:
     return float(text.replace("−", "-"))
 
