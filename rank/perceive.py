@@ -611,7 +611,7 @@ def _alkene_kind(g: Graph, drafts: list[_Draft], i: int, j: int, a: int) -> str 
 
 
 def _long_range(g: Graph, fam: list[str], on_atom: dict, a: int):
-    """Resolved four-bond couplings: aromatic meta, H-C≡C-C-H, H-C=N-C-H."""
+    """Resolved four-bond couplings: aromatic meta, H-C≡C-C-H, H-C=N-C-H, allylic H-C=C-C-H."""
     if g.aromatic[a] and fam[a] in ("aromatic", "heteroaromatic"):
         for ring in g.rings:
             if len(ring) == 6 and a in ring and all(g.aromatic[x] for x in ring):
@@ -622,19 +622,27 @@ def _long_range(g: Graph, fam: list[str], on_atom: dict, a: int):
                         yield j, s.n, "meta"
         return
     for b, order in g.bonds[a].items():
-        if order == 3.0 and fam[a] == "alkyne" or order == 2.0 and fam[a] == "imine" and g.z[b] == 7:
-            kind = "alkyne_4j" if order == 3.0 else "imine_4j"
-            for c in g.bonds[b]:
-                if c != a and fam[c] in SP3_FAMILIES:
+        kind = _four_bond_kind(g, fam, a, b, order)
+        if kind is not None:
+            for c, o2 in g.bonds[b].items():
+                if c != a and o2 == 1.0 and fam[c] in SP3_FAMILIES:
                     for j, s in on_atom.get(c, ()):
                         yield j, s.n, kind
         elif order == 1.0 and fam[a] in SP3_FAMILIES:
             for c, o2 in g.bonds[b].items():
-                if c == a:
-                    continue
-                if o2 == 3.0 and fam[c] == "alkyne":
+                kind = None if c == a else _four_bond_kind(g, fam, c, b, o2)
+                if kind is not None:
                     for j, s in on_atom.get(c, ()):
-                        yield j, s.n, "alkyne_4j"
-                elif o2 == 2.0 and g.z[b] == 7 and fam[c] == "imine":
-                    for j, s in on_atom.get(c, ()):
-                        yield j, s.n, "imine_4j"
+                        yield j, s.n, kind
+
+
+def _four_bond_kind(g: Graph, fam: list[str], a: int, b: int, order: float) -> str | None:
+    """The four-bond coupling kind from H on the multiply bonded atom a across a=b (or a≡b) to H on an
+    sp3 atom bonded to b, or None."""
+    if order == 3.0 and fam[a] == "alkyne":
+        return "alkyne_4j"
+    if order == 2.0 and fam[a] == "imine" and g.z[b] == 7:
+        return "imine_4j"
+    if order == 2.0 and fam[a] == "alkene" and g.z[b] == 6:
+        return "allylic"
+    return None

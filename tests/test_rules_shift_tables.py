@@ -298,6 +298,7 @@ COUPLING = {
     "meta": ("Cc1ccccc1", "Cc1ccc(C)c(C)c1C"),
     "alkyne_4j": ("C#CC", "C#CC(C)(C)C"),
     "imine_4j": ("CN=Cc1ccccc1", "CC(C)(C)N=Cc1ccccc1"),
+    "allylic": ("CC=CC(=O)OC", "C=C(C(C)(C)C)C(=O)OC"),
     "vic_nh_amide": ("CNC(C)=O", "CN(C)C(C)=O"),
     "vic_nh": ("CNC", "CN(C)C"),
     "vic_oh": ("CO", "CC(C)(C)O"),
