@@ -309,3 +309,66 @@ def test_brute_force_reference_agrees_with_scipy_on_a_small_matrix():
     assert list(c) == [1, 0, 3]
     sr, sc = linear_sum_assignment(cost)
     assert cost[sr, sc].sum() == pytest.approx(5.0)
+
+
+# ------------------------------------------------ unreported multiplicities ----
+
+
+@pytest.mark.parametrize(
+    ("smiles", "text"),
+    [
+        # tert-butyl methyl ether, shifts and H counts only as a database lists them (from memory)
+        ("COC(C)(C)C", "3.22 (3H), 1.19 (9H)"),
+        # ethyl acetate without multiplicities (Gottlieb et al. 1997, from memory)
+        ("CCOC(C)=O", "4.12 (2H), 2.05 (3H), 1.26 (3H)"),
+    ],
+)
+def test_unreported_multiplicities_cost_nothing(smiles, text):
+    peaks = parse_peak_text(text).peaks
+    counts = tuple(int(p.integral) for p in peaks)
+    result = match(predict_smiles(smiles), peaks, counts, 0, False)
+    assert result.parts.multiplicity == 0.0
+    assert result.parts.coupling == 0.0
+
+
+def test_an_unreported_multiplicity_is_not_read_as_a_multiplet():
+    # a singlet-only structure against peaks written "m" pays the lone-singlet-in-a-multiplet penalty;
+    # the same peaks with no multiplicity written pay nothing (common practice: unknown is not m)
+    signals = predict_smiles("COC(C)(C)C")
+    as_m = parse_peak_text("3.22 (m, 3H), 1.19 (m, 9H)").peaks
+    unknown = parse_peak_text("3.22 (3H), 1.19 (9H)").peaks
+    assert match(signals, as_m, (3, 9), 0, False).parts.multiplicity > 0
+    assert match(signals, unknown, (3, 9), 0, False).parts.multiplicity == 0
+
+
+# ------------------------------------------------------ small observed J ----
+
+
+def test_allylic_j_reported_for_e_crotonate_costs_nothing():
+    # ethyl (E)-crotonate: H-2 5.84 (dq, J = 15.6, 1.7 Hz) and CH3 1.87 (dd, J = 6.9, 1.7 Hz) carry the
+    # four-bond allylic coupling (typical literature values, from memory)
+    text = ("6.97 (dq, J = 15.6, 6.9 Hz, 1H), 5.84 (dq, J = 15.6, 1.7 Hz, 1H), 4.18 (q, J = 7.1 Hz, 2H), "
+            "1.87 (dd, J = 6.9, 1.7 Hz, 3H), 1.28 (t, J = 7.1 Hz, 3H)")
+    peaks = parse_peak_text(text).peaks
+    result = match(predict_smiles("C/C=C/C(=O)OCC"), peaks, (1, 1, 2, 3, 3), 0, False)
+    assert result.parts.multiplicity == 0.0
+    assert result.parts.coupling == 0.0
+
+
+def test_small_observed_couplings_the_prediction_lacks_cost_nothing():
+    # 2-methylfuran: the CH3 2.28 shows a 1.0 Hz long-range coupling to H-3 that no table predicts
+    # (typical literature value, from memory); written as "d", it is read as the singlet it predicts
+    signals = predict_smiles("Cc1ccco1")
+    methyl = next(i for i, s in enumerate(signals) if s.family == "CH3")
+    assert signals[methyl].multiplicity == "s"
+    peaks = parse_peak_text("7.27 (dd, J = 1.8, 0.9 Hz, 1H), 6.27 (dd, J = 3.1, 1.9 Hz, 1H), "
+                            "5.96 (m, 1H), 2.28 (d, J = 1.0 Hz, 3H)").peaks
+    m = match(signals, peaks, (1, 1, 1, 3), 0, False)
+    assert (m.pairings[methyl].multiplicity_penalty, m.pairings[methyl].coupling_penalty) == (0.0, 0.0)
+    assert coupling_penalty((7.5, 1.2), (7.3,), 1.5, small=3.0) == 0.0
+    assert coupling_penalty((7.5, 4.0), (7.3,), 1.5, small=3.0) > 0.0
+
+
+def test_a_large_observed_coupling_the_prediction_lacks_still_costs():
+    # an alkene H reported dd with 15.6 and 10.2 Hz against a prediction with one 15.6 Hz partner
+    assert coupling_penalty((15.6, 10.2), (15.6,), 1.5, small=3.0) > 0.0
