@@ -53,6 +53,7 @@ def assignment_rows(candidate: Candidate, result: Shortlist) -> list[dict]:
             "peak": p.peak,
             "observed_shift": None if peak is None else _ppm(peak.shift),
             "observed_multiplicity": None if peak is None else peak.multiplicity,
+            "observed_label": None if peak is None else peak.label,
             "protons_in_peak": p.protons,
             "z": round(p.z, Z_DECIMALS),
             "multiplicity_penalty": round(p.multiplicity_penalty, PENALTY_DECIMALS),

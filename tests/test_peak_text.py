@@ -317,3 +317,23 @@ def _peaks(draw) -> Peak:
 @given(st.lists(_peaks(), min_size=1, max_size=8))
 def test_a_printed_peak_list_reads_back_equal(peaks):
     assert list(parse_peak_text(format_peaks(peaks)).peaks) == peaks
+
+
+# ------------------------------------------------------ labels in reports ----
+
+
+def test_labels_and_labelled_drops_are_shown_in_json_terminal_and_html():
+    from rank.html import report_html
+    from rank.report import terminal_text, to_json
+    from rank.shortlist import Identifier
+
+    # ethyl acetate with its groups labelled and the CHCl3 residual labelled (Gottlieb et al. 1997, from memory)
+    text = "4.12 (q, J = 7.1 Hz, 2H, OCH2), 2.05 (s, 3H, COCH3), 1.26 (t, J = 7.1 Hz, 3H, CH3), 7.26 (s, CHCl3)"
+    result = Identifier(top=3).identify("C4H8O2", text)
+    doc = to_json(result)
+    assert [p["label"] for p in doc["peaks_used"]] == ["OCH2", "COCH3", "CH3"]
+    assert doc["peaks_dropped"][0]["label"] == "CHCl3" and "solvent" in doc["peaks_dropped"][0]["reason"]
+    assert doc["candidates"][0]["smiles"] == "CCOC(C)=O"
+    assert {row["observed_label"] for row in doc["candidates"][0]["assignment"]} == {"OCH2", "COCH3", "CH3"}
+    assert "[OCH2]" in terminal_text(result) and "labelled 'CHCl3'" in terminal_text(result)
+    assert "COCH3" in report_html(result)
