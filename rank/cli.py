@@ -1,11 +1,17 @@
 """The ``peakrank`` command: parses arguments, calls the API, prints.
 
-Exit status 0 on success, 2 on bad input with one line on stderr.
+Exit status 0 on success; 2 on bad input with one line on stderr saying what is
+wrong and how to fix it; 130 on Ctrl-C.  Output files are checked before any
+work starts and written whole or not at all.
 """
 
 from __future__ import annotations
 
 import argparse
+import difflib
+import os
+import re
+import secrets
 import sys
 from collections.abc import Sequence
 from pathlib import Path
@@ -14,10 +20,77 @@ from .errors import InputError
 
 
 class _Parser(argparse.ArgumentParser):
-    """argparse that reports a usage error on one line."""
+    """argparse that reports a usage error on one line, suggesting the closest option or command."""
+
+    def __init__(self, *args, **kwargs) -> None:
+        self._known_options: set[str] = set()
+        self._commands: dict[str, _Parser] = {}
+        self._given: list[str] = []
+        super().__init__(*args, **kwargs)
+
+    def add_argument(self, *args, **kwargs):
+        action = super().add_argument(*args, **kwargs)
+        self._known_options.update(action.option_strings)
+        return action
+
+    def add_subparsers(self, **kwargs):
+        sub = super().add_subparsers(**kwargs)
+        self._commands = sub.choices
+        return sub
+
+    def parse_known_args(self, args=None, namespace=None):
+        self._given = list(sys.argv[1:] if args is None else args)
+        return super().parse_known_args(args, namespace)
 
     def error(self, message: str) -> None:
-        self.exit(2, f"{self.prog}: {message} (see {self.prog} --help)\n")
+        prog, text = self._better(message)
+        self.exit(2, f"{prog}: {text} (see {prog} --help)\n")
+
+    def _better(self, message: str) -> tuple[str, str]:
+        """(program, message), the message led by 'did you mean ...?' for a misspelled command or option."""
+        choice = re.search(r"invalid choice: '([^']*)'", message)
+        if choice and self._commands:
+            close = difflib.get_close_matches(choice.group(1), list(self._commands), n=1, cutoff=0.5)
+            if close:
+                return self.prog, f"unknown command {choice.group(1)!r}; did you mean {close[0]}?"
+            return self.prog, f"unknown command {choice.group(1)!r}; the commands are {', '.join(self._commands)}"
+        command = next((a for a in self._given if a in self._commands), None)
+        parser, prog = (self._commands[command], f"{self.prog} {command}") if command else (self, self.prog)
+        known = sorted(parser._known_options)
+        for given in self._given:
+            name = given.split("=", 1)[0]
+            if not name.startswith("--") or name == "--" or any(k.startswith(name) for k in known):
+                continue
+            close = difflib.get_close_matches(name, known, n=1, cutoff=0.6)
+            return prog, f"unknown option {name}" + (f"; did you mean {close[0]}?" if close else "")
+        return prog, message
+
+
+def _version() -> str:
+    from importlib.metadata import PackageNotFoundError, version
+
+    try:
+        return version("peakrank")
+    except PackageNotFoundError:
+        from . import __version__
+
+        return __version__
+
+
+def _workers_help() -> str:
+    from .shortlist import available_cores
+
+    return f"processes that generate and score (default: the cores this process may use, here {available_cores()})"
+
+
+def _workers(args: argparse.Namespace) -> int:
+    from .shortlist import available_cores
+
+    if args.workers is None:
+        return available_cores()
+    if args.workers == 0:
+        raise InputError("--workers must be at least 1")
+    return args.workers
 
 
 def _positive_int(text: str) -> int:
@@ -45,6 +118,7 @@ def build_parser() -> argparse.ArgumentParser:
         prog="peakrank",
         description="Rank the structures a molecular formula allows against a 1H NMR peak list.",
     )
+    parser.add_argument("--version", action="version", version=f"peakrank {_version()}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     sub.required = True
 
@@ -79,16 +153,14 @@ def _add_demo(sub) -> None:
     dem = sub.add_parser("demo", help="identify the demo scenario's four unknowns and write their reports")
     dem.add_argument("--out", default="peakrank-demo-reports", metavar="DIR",
                      help="folder for the reports (a new one: -2, -3, ... is added if it exists)")
-    dem.add_argument("--workers", type=_positive_int, default=1, metavar="N", help="scoring processes (default 1)")
+    dem.add_argument("--workers", type=_positive_int, default=None, metavar="N", help=_workers_help())
     dem.set_defaults(run=_run_demo)
 
 
 def _run_demo(args: argparse.Namespace) -> int:
     from .demo import run_demo
 
-    if args.workers == 0:
-        raise InputError("--workers must be at least 1")
-    run_demo(Path(args.out), workers=args.workers, echo=lambda text: print(text, flush=True))
+    run_demo(Path(args.out), workers=_workers(args), echo=lambda text: print(text, flush=True))
     return 0
 
 
@@ -98,7 +170,7 @@ def _add_bench(sub) -> None:
                      help="tab-separated known answers: id, name, formula, smiles, solvent, peaks, source")
     ben.add_argument("--only", action="append", default=[], metavar="ID", help="run only these ids (repeatable)")
     ben.add_argument("--no-hints", action="store_true", help="do not narrow the isomer space with hints")
-    ben.add_argument("--workers", type=_positive_int, default=1, metavar="N", help="scoring processes (default 1)")
+    ben.add_argument("--workers", type=_positive_int, default=None, metavar="N", help=_workers_help())
     ben.add_argument("--budget", type=_seconds, metavar="SECONDS", help="time limit per compound")
     ben.add_argument("--ceiling", type=_positive_int, default=None, metavar="N",
                      help="refuse compounds whose isomer space is estimated above N (default 2,000,000)")
@@ -112,13 +184,14 @@ def _run_bench(args: argparse.Namespace) -> int:
     from .generate import DEFAULT_CEILING
     from .shortlist import temperature
 
+    workers = _workers(args)
     cases = [c for c in read_cases(args.file) if not args.only or c.id in args.only]
     if not cases:
         raise InputError("no case left to run; check --only")
     outcomes = []
     print(f"{'id':<14} {'rank':>5} {'scored':>8} {'seconds':>8}  name")
     for case in cases:
-        o = run_case(case, use_hints=not args.no_hints, workers=args.workers, budget=args.budget,
+        o = run_case(case, use_hints=not args.no_hints, workers=workers, budget=args.budget,
                      ceiling=DEFAULT_CEILING if args.ceiling is None else args.ceiling)
         outcomes.append(o)
         rank = "-" if o.rank is None else str(o.rank)
@@ -159,13 +232,14 @@ def _add_identify(sub) -> None:
     ide.add_argument("--forbid", action="append", default=[], metavar="SMARTS", help="candidates must not match (repeatable)")
     ide.add_argument("--no-hints", action="store_true", help="do not narrow the isomer space with hints read from the peaks")
     ide.add_argument("--keep-all-peaks", action="store_true", help="do not drop solvent, water and TMS signals")
-    ide.add_argument("--workers", type=_positive_int, default=1, metavar="N", help="scoring processes (default 1)")
+    ide.add_argument("--workers", type=_positive_int, default=None, metavar="N", help=_workers_help())
     ide.add_argument("--budget", type=_seconds, metavar="SECONDS", help="stop scoring after this long and say so")
     ide.add_argument("--ceiling", type=_positive_int, default=None, metavar="N",
                      help="refuse isomer spaces estimated above N structures (default 2,000,000; 0 = no limit)")
     ide.add_argument("--json", metavar="PATH", help="write the short list as JSON ('-' for stdout, nothing else there)")
-    ide.add_argument("--csv", metavar="PATH", help="write the short list as CSV")
-    ide.add_argument("--report", metavar="PATH.html", help="write a self-contained HTML report")
+    ide.add_argument("--csv", metavar="PATH", help="write the short list as CSV ('-' for stdout, nothing else there)")
+    ide.add_argument("--report", metavar="PATH.html",
+                     help="write a self-contained HTML report ('-' for stdout, nothing else there)")
     ide.add_argument("--force", action="store_true", help="replace output files that exist")
     ide.add_argument("--quiet", action="store_true", help="no progress line on stderr")
     ide.set_defaults(run=_run_identify)
@@ -173,40 +247,109 @@ def _add_identify(sub) -> None:
 
 def _run_identify(args: argparse.Namespace) -> int:
     from .generate import DEFAULT_CEILING
-    from .report import csv_text, json_text, terminal_text, write_text_file
+    from .report import csv_text, json_text, terminal_text
     from .shortlist import Identifier
 
     if args.top == 0:
         raise InputError("--top must be at least 1")
-    if args.workers == 0:
-        raise InputError("--workers must be at least 1")
+    workers = _workers(args)
     if args.field is not None and not 20 <= args.field <= 1500:
         raise InputError("--field must be a spectrometer frequency in MHz, between 20 and 1500")
-    for path in (args.csv, args.report, None if args.json == "-" else args.json):
-        if path and Path(path).exists() and not args.force:
-            raise InputError(f"{path} exists; choose another name or pass --force to replace it")
+    outputs = _check_outputs(args, {"--json": ("json", "shortlist.json"), "--csv": ("csv", "shortlist.csv"),
+                                    "--report": ("report", "report.html")})
     identifier = Identifier(
         top=args.top, solvent=args.solvent, field_mhz=args.field, require=args.require, forbid=args.forbid,
-        use_hints=not args.no_hints, workers=args.workers, budget=args.budget,
+        use_hints=not args.no_hints, workers=workers, budget=args.budget,
         ceiling=DEFAULT_CEILING if args.ceiling is None else args.ceiling,
         keep_all_peaks=args.keep_all_peaks, progress=not args.quiet and sys.stderr.isatty(),
     )
     result = identifier.identify(args.formula, args.peaks, args.candidates)
-    if args.json == "-":
-        sys.stdout.write(json_text(result))
-    else:
-        sys.stdout.write(terminal_text(result))
-        if args.json:
-            write_text_file(args.json, json_text(result), args.force)
-    if args.csv:
-        write_text_file(args.csv, csv_text(result), args.force)
-    if args.report:
+
+    def render(option: str) -> str:
+        if option == "--json":
+            return json_text(result)
+        if option == "--csv":
+            return csv_text(result)
         from .html import report_html
 
-        write_text_file(args.report, report_html(result), args.force)
+        return report_html(result)
+
+    texts = {option: render(option) for option in outputs}
+    for option, path in outputs.items():
+        if path != "-":
+            _write(path, texts[option], args.force)
+    to_stdout = next((option for option, path in outputs.items() if path == "-"), None)
+    sys.stdout.write(texts[to_stdout] if to_stdout else terminal_text(result))
+    sys.stdout.flush()
+    note = result.candidates_file_note()
+    if note:
+        print(f"peakrank: {note}", file=sys.stderr)
     if not result.complete:
         print("peakrank: the run stopped early; the list is incomplete", file=sys.stderr)
     return 0
+
+
+def _check_outputs(args: argparse.Namespace, options: dict[str, tuple[str, str]]) -> dict[str, str]:
+    """The outputs asked for, option -> path ('-' for standard output), checked before any work.
+
+    At most one may go to standard output; no two may name the same file; a path must
+    name a file (not a folder) in a folder that exists and can be written, and an
+    existing file is replaced only with --force.
+    """
+    chosen = {option: getattr(args, dest) for option, (dest, _) in options.items() if getattr(args, dest)}
+    to_stdout = [option for option, path in chosen.items() if path == "-"]
+    if len(to_stdout) > 1:
+        raise InputError(f"{' and '.join(to_stdout)} would both write to standard output; send all but one "
+                         f"to a file, e.g. {to_stdout[1]} {options[to_stdout[1]][1]}")
+    seen: dict[str, str] = {}
+    for option, path in chosen.items():
+        if path == "-":
+            continue
+        _check_output_path(option, path, options[option][1], args.force)
+        key = os.path.realpath(path)
+        if key in seen:
+            raise InputError(f"{seen[key]} and {option} both name {path}; give each its own file")
+        seen[key] = option
+    return chosen
+
+
+def _check_output_path(option: str, path: str, example: str, force: bool) -> None:
+    target = Path(path)
+    folder = target.parent
+    if target.is_dir():
+        raise InputError(f"{option} {path} is a folder; give a file name, e.g. {option} {target / example}")
+    if not folder.is_dir():
+        what = "does not exist" if not folder.exists() else "is not a folder"
+        raise InputError(f"{option} {path}: folder {folder} {what}; create it or choose another path")
+    if target.exists() and target.is_file() and not force:
+        raise InputError(f"{option} {path}: the file exists; choose another name or pass --force to replace it")
+    if not os.access(folder, os.W_OK | os.X_OK) and not (target.exists() and not target.is_file()):
+        raise InputError(f"{option} {path}: cannot write in folder {folder} (permission denied); "
+                         "choose another path")
+
+
+def _write(path: str, text: str, force: bool) -> None:
+    """Write the whole text or nothing: into a hidden file beside the target, then renamed over it.
+
+    A path that exists but is not a regular file (``/dev/null``, a pipe) is written directly.
+    """
+    target = Path(path)
+    try:
+        if target.exists() and not target.is_file():
+            with open(target, "w", encoding="utf-8") as out:
+                out.write(text)
+            return
+        part = target.with_name(f".{target.name}.{secrets.token_hex(4)}.part")
+        try:
+            with open(part, "x", encoding="utf-8") as out:
+                out.write(text)
+            if target.exists() and not force:
+                raise InputError(f"{path} exists; choose another name or pass --force to replace it")
+            os.replace(part, target)
+        finally:
+            part.unlink(missing_ok=True)
+    except OSError as exc:
+        raise InputError(f"cannot write {path}: {exc.strerror or exc}; choose another path") from None
 
 
 def _run_isomers(args: argparse.Namespace) -> int:
@@ -254,33 +397,39 @@ def _add_predict(sub) -> None:
 def _run_predict(args: argparse.Namespace) -> int:
     import json
 
+    from rdkit import Chem
+
     from .predict import Predictor, parse_smiles, signal_table
 
-    if args.json and args.json != "-" and Path(args.json).exists() and not args.force:
-        raise InputError(f"{args.json} exists; choose another name or pass --force to replace it")
+    outputs = _check_outputs(args, {"--json": ("json", "signals.json")})
     predictor = Predictor(args.solvent, args.field)
-    signals = predictor.predict(parse_smiles(args.smiles))
-    doc = {"smiles": args.smiles, "solvent": predictor.solvent_id, "field_mhz": args.field,
+    notes: list[str] = []
+    mol = parse_smiles(args.smiles, notes)
+    used = Chem.MolToSmiles(mol)
+    # a salt or an ion is replaced by another molecule, whose atoms follow its canonical SMILES
+    smiles = args.smiles if used == Chem.CanonSmiles(args.smiles) else used
+    signals = predictor.predict(mol)
+    doc = {"smiles": smiles, "solvent": predictor.solvent_id, "field_mhz": args.field,
            "signals": [s.to_json() for s in signals]}
+    if notes:
+        doc.update({"input": args.smiles, "note": " ".join(notes)})
     text = json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
-    if args.json == "-":
+    if outputs.get("--json", "-") != "-":
+        _write(outputs["--json"], text, args.force)
+    for note in notes:
+        print(f"peakrank: {note}", file=sys.stderr)
+    if outputs.get("--json") == "-":
         sys.stdout.write(text)
         return 0
-    print(f"{args.smiles}  ({predictor.solvent_id}, {args.field:g} MHz)")
+    print(f"{smiles}  ({predictor.solvent_id}, {args.field:g} MHz)")
     sys.stdout.write(signal_table(signals))
-    if args.json:
-        try:
-            Path(args.json).write_text(text, encoding="utf-8")
-        except OSError as exc:
-            raise InputError(f"cannot write {args.json}: {exc.strerror}; choose another path") from None
     return 0
 
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``peakrank`` console script."""
-    parser = build_parser()
-    args = parser.parse_args(argv)
     try:
+        args = build_parser().parse_args(argv)
         return args.run(args)
     except InputError as exc:
         print(f"peakrank: {exc}", file=sys.stderr)

@@ -39,6 +39,14 @@ RDLogger.DisableLog("rdApp.*")
 DEFAULT_CEILING = 2_000_000
 """Largest estimated space a run starts without being asked (``--ceiling``)."""
 
+HOPELESS = 10**10
+"""Estimated structures beyond which no run can finish: the generator builds about 10^4
+structures per second in the default space (``benchmarks/generator.py``), so this many take
+weeks, and lifting the ceiling is no advice worth giving."""
+
+REFUSAL_SECONDS = 2.0
+"""Time a refusal spends sharpening its estimate after the space is known to pass the ceiling."""
+
 MAX_HEAVY_ATOMS = 40
 _BATCH = 2048
 _BOND = {1: Chem.BondType.SINGLE, 2: Chem.BondType.DOUBLE, 3: Chem.BondType.TRIPLE}
@@ -103,6 +111,48 @@ def plausibility_filters() -> tuple[Filter, ...]:
             raise ValueError(f"rules/filters.tsv row {r['id']}: bad SMARTS {r['smarts']!r}")
         rows.append(Filter(r["id"], pattern, r["reason"]))
     return tuple(rows)
+
+
+class SpaceTooLarge(InputError):
+    """The estimated space of a formula is above the ceiling.
+
+    Attributes
+    ----------
+    formula : the formula (Hill order).
+    estimate : the estimated structures to build; a lower bound when ``at_least``.
+    ceiling : the limit that was passed.
+    at_least : True when the estimate stopped early (time, or past :data:`HOPELESS`).
+    """
+
+    def __init__(self, formula: str, estimate: float, ceiling: int, at_least: bool, advice: str = "") -> None:
+        self.formula, self.estimate, self.ceiling, self.at_least = formula, estimate, ceiling, at_least
+        if not advice:
+            advice = ("to rank suspects against a spectrum, give them to peakrank identify --candidates FILE"
+                      if self.hopeless else "narrow it with --require/--forbid, or pass --ceiling 0 to lift it")
+        self.advice = advice
+        size = f"{'more than' if at_least else 'about'} {_figure(estimate)} structures to build"
+        if self.hopeless:
+            text = f"{formula}: {size}, far too many for any run (--ceiling 0 would not finish); {advice}"
+        else:
+            text = f"{formula}: {size}, above the limit of {ceiling:,}; {advice}"
+        super().__init__(text)
+
+    @property
+    def hopeless(self) -> bool:
+        """True when the space is beyond :data:`HOPELESS`: only a list of suspects helps."""
+        return self.estimate >= HOPELESS
+
+    def with_advice(self, advice: str) -> SpaceTooLarge:
+        """The same refusal with other advice (the command that refuses knows what works there)."""
+        return SpaceTooLarge(self.formula, self.estimate, self.ceiling, self.at_least, advice)
+
+
+def _figure(x: float) -> str:
+    """An estimate to two figures as a chemist writes it: 3,400,000 or 2.8e10."""
+    if x < 1e7:
+        return f"{float(f'{x:.2g}'):,.0f}"
+    mantissa, exponent = f"{x:.1e}".split("e")
+    return f"{mantissa}e{int(exponent)}"
 
 
 def compile_smarts(text: str, what: str = "SMARTS") -> Chem.Mol:
@@ -273,8 +323,10 @@ class IsomerStream:
     Notes
     -----
     After iteration, ``explored`` counts structures built, ``removed`` counts
-    structures per filter id, and ``complete_run`` tells whether the space was
-    exhausted.
+    structures per filter id, ``rejected`` structures per user pattern (``"--require
+    'C=O'"``: built, then left out), ``pruned`` hydrogen distributions a one-atom
+    pattern ruled out before building, and ``complete_run`` tells whether the space
+    was exhausted.
     """
 
     def __init__(
@@ -307,6 +359,8 @@ class IsomerStream:
         self.hinted: Counter = Counter()
         self.explored = 0
         self.removed: Counter = Counter()
+        self.rejected: Counter = Counter()
+        self.pruned: Counter = Counter()
         self.complete_run = False
 
     # -- the runs of the compiled core ------------------------------------------
@@ -319,12 +373,12 @@ class IsomerStream:
         hint by hint and counted in ``hinted``.
         """
         self.hinted.update(self._removed_by_groups)
-        yield from self._runs([h for h in self.hints if h.fragments], True)
+        yield from self._runs(self._group_hints, True)
 
     @cached_property
     def _removed_by_groups(self) -> Counter:
         """Estimated structures each group hint removes, taking the group hints one by one."""
-        grouped = [h for h in self.hints if h.fragments]
+        grouped = self._group_hints
         levels = [sum(self._enumerator(types).estimate(16, 1) for types in self._runs(grouped[:k], False))
                   for k in range(len(grouped) + 1)] if grouped else []
         return Counter({h.name: max(0, round(before - after))
@@ -337,7 +391,12 @@ class IsomerStream:
                 ordered = sorted(states.items(), key=lambda sc: sc[0].id)
                 for share in _hydrogen_shares(ordered, formula["H"], single):
                     types = sorted([*share.items(), *groups], key=lambda tc: _type_key(tc[0]), reverse=True)
-                    if not (self._feasible(types, single) and self._may_pass(types)):
+                    if not self._feasible(types, single):
+                        continue
+                    pruned = self._pruned_by(types)
+                    if pruned is not None:
+                        if tally:
+                            self.pruned[pruned] += 1
                         continue
                     refused = next((h for h in self.hints if not h.allows(types)), None)
                     if refused is not None:
@@ -385,14 +444,15 @@ class IsomerStream:
         n = sum(c for _, c in types)
         return all(t.degree >= 1 for t, _ in types) and total % 2 == 0 and total // 2 >= n - 1
 
-    def _may_pass(self, types: list[tuple[AtomType, int]]) -> bool:
-        for p in self._require:
+    def _pruned_by(self, types: list[tuple[AtomType, int]]) -> str | None:
+        """The option (e.g. ``--require '[NH2]'``) that rules out every structure of these types, if any."""
+        for text, p in zip(self.require, self._require):
             if p.GetNumAtoms() == 1 and all(_atom_truth(p, 0, t) is False for t, _ in types):
-                return False
-        for p in self._forbid:
+                return f"--require {text!r}"
+        for text, p in zip(self.forbid, self._forbid):
             if p.GetNumAtoms() == 1 and any(_atom_truth(p, 0, t) is True for t, _ in types):
-                return False
-        return True
+                return f"--forbid {text!r}"
+        return None
 
     def _enumerator(self, types: list[tuple[AtomType, int]], part: int = 0, parts: int = 1) -> _enum.Enumerator:
         size = len(types)
@@ -434,20 +494,41 @@ class IsomerStream:
         """
         return sum(self._enumerator(types).estimate(probes, seed) for types in self.runs())
 
-    def _check_ceiling(self) -> None:
+    def check_ceiling(self) -> None:
+        """Raise :class:`SpaceTooLarge` when the estimate of the space is above the ceiling.
+
+        The per-run estimates of :meth:`estimate` are summed only until the sum passes
+        the ceiling (every term is at least 0, so the whole is then above it too); the
+        refusal then spends at most :data:`REFUSAL_SECONDS` carrying the sum on with
+        fewer probes, to say roughly how far above, and stops at :data:`HOPELESS`.
+        """
         if not self.ceiling:
             return
-        guess = self.estimate()
-        if guess > self.ceiling:
-            raise InputError(
-                f"{self.formula.hill}: about {guess:.2g} structures to build, above the limit of "
-                f"{self.ceiling:,}; narrow it with --require/--forbid, or pass --ceiling 0 to lift it"
-            )
+        runs = self._runs(self._group_hints, False)
+        total = 0.0
+        for types in runs:
+            total += self._enumerator(types).estimate(64, 1)
+            if total > self.ceiling:
+                break
+        else:
+            return
+        deadline = time.monotonic() + REFUSAL_SECONDS
+        at_least = False
+        for types in runs:
+            if total >= HOPELESS or time.monotonic() > deadline:
+                at_least = True
+                break
+            total += self._enumerator(types).estimate(4, 1)
+        raise SpaceTooLarge(self.formula.hill, total, self.ceiling, at_least)
+
+    @property
+    def _group_hints(self) -> list:
+        return [h for h in self.hints if h.fragments]
 
     def __iter__(self) -> Iterator[Isomer]:
-        self._check_ceiling()
+        self.check_ceiling()
         self.explored, self.removed, self.complete_run = 0, Counter(), False
-        self.hinted = Counter()
+        self.hinted, self.rejected, self.pruned = Counter(), Counter(), Counter()
         deadline = None if self.budget is None else time.time() + self.budget
         for types in self.runs():
             yield from self.stream_run(types, deadline=deadline)
@@ -480,7 +561,7 @@ class IsomerStream:
         structures with a second Kekule form are built in Python."""
         if not self.complete or self._require or self._forbid or self.hints:
             return sum(1 for _ in self)
-        self._check_ceiling()
+        self.check_ceiling()
         self.explored, self.complete_run = 0, False
         deadline = None if self.budget is None else time.time() + self.budget
         total = 0
@@ -519,10 +600,14 @@ class IsomerStream:
             if not _is_kekule_representative(mol, build_molecule(kinds, record, aromatize=False), smiles):
                 return None
         # the user's patterns and the hints first: they are the most selective
-        if any(not mol.HasSubstructMatch(p) for p in self._require):
-            return None
-        if any(mol.HasSubstructMatch(p) for p in self._forbid):
-            return None
+        for text, p in zip(self.require, self._require):
+            if not mol.HasSubstructMatch(p):
+                self.rejected[f"--require {text!r}"] += 1
+                return None
+        for text, p in zip(self.forbid, self._forbid):
+            if mol.HasSubstructMatch(p):
+                self.rejected[f"--forbid {text!r}"] += 1
+                return None
         for name, pattern in self._hint_patterns:
             if not mol.HasSubstructMatch(pattern):
                 self.hinted[name] += 1

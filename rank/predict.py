@@ -345,12 +345,26 @@ def signal_table(signals: list[Signal]) -> str:
     return "\n".join(lines) + "\n"
 
 
-def parse_smiles(smiles: str) -> Chem.Mol:
-    """A sanitised molecule from SMILES, or InputError saying what to fix."""
+def parse_smiles(smiles: str, notes: list[str] | None = None) -> Chem.Mol:
+    """A sanitised, neutral, closed-shell molecule from SMILES, or InputError saying what to fix.
+
+    A salt or mixture gives its largest organic component, an ion its neutral form
+    (``rank.standardize``); the molecule's atoms then follow its canonical SMILES.  An
+    ion with no H to move (an onium ion) is kept as written.  Whenever there is
+    something to say, a line is appended to ``notes`` if a list is given.  Elements
+    other than C, H, N, O, S, P, F, Cl, Br and I, radicals and salts without carbon
+    are refused.
+    """
+    from .standardize import standardize
+
     mol = Chem.MolFromSmiles(smiles) if isinstance(smiles, str) and smiles.strip() else None
     if mol is None or mol.GetNumAtoms() == 0:
         raise InputError(f"{smiles!r} is not a valid SMILES; write e.g. 'CCOC(C)=O' (quote it in the shell)")
-    return mol
+    used = standardize(mol, smiles)
+    note = used.note(smiles)
+    if note is not None and notes is not None:
+        notes.append(note)
+    return used.mol if used.mixture or used.neutralised else mol
 
 
 def predict_smiles(smiles: str, solvent: str = "CDCl3") -> list[Signal]:

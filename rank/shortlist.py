@@ -15,6 +15,8 @@ from __future__ import annotations
 
 import heapq
 import math
+import os
+import signal
 import sys
 import time
 from collections import Counter
@@ -22,13 +24,14 @@ from collections.abc import Iterable, Iterator, Sequence
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field, replace
 from pathlib import Path
+from typing import NamedTuple
 
 from rdkit import Chem
 from rdkit.Chem import rdMolDescriptors
 
 from .errors import InputError
 from .formula import Formula, parse_formula
-from .generate import DEFAULT_CEILING, IsomerStream, compile_smarts
+from .generate import DEFAULT_CEILING, IsomerStream, SpaceTooLarge, compile_smarts
 from .hints import Hint, read_hints
 from .match import DEFAULT_SETTINGS, Match, Settings, match
 from .peaks import (
@@ -43,6 +46,7 @@ from .peaks import (
     read_peaks,
 )
 from .predict import Predictor, Signal
+from .standardize import Unsupported, standardize, supported_text
 from .tables import read_table
 
 CAUTION = (
@@ -103,8 +107,36 @@ class Shortlist:
     hinted: dict[str, int] = field(default_factory=dict)
     skipped_inputs: int = 0
     other_formula: int = 0
+    mixtures: int = 0
+    neutralised: int = 0
+    unsupported: dict[str, int] = field(default_factory=dict)
+    unsupported_elements: tuple[str, ...] = ()
+    rejected: dict[str, int] = field(default_factory=dict)
     tracked_misfit: float | None = None
     misfits: list[float] = field(default_factory=list)
+
+    def candidates_file_note(self) -> str | None:
+        """One line on what a candidates file needed changed or left out beyond unreadable
+        lines and other formulas; None when nothing."""
+        parts = self._candidates_file_changes()
+        return "candidates file: " + "; ".join(parts) if parts else None
+
+    def _candidates_file_changes(self) -> list[str]:
+        parts = []
+        if self.mixtures:
+            parts.append(f"{_plural(self.mixtures, 'salt or mixture', 'salts or mixtures')} reduced to the "
+                         "largest organic component")
+        if self.neutralised:
+            parts.append(f"{_plural(self.neutralised, 'ion', 'ions')} taken in neutral form")
+        if self.unsupported.get("elements"):
+            parts.append(f"{_plural(self.unsupported['elements'], 'structure', 'structures')} with "
+                         f"{', '.join(self.unsupported_elements)} skipped (peakrank works on {supported_text()})")
+        if self.unsupported.get("radical"):
+            parts.append(f"{_plural(self.unsupported['radical'], 'radical', 'radicals')} skipped")
+        if self.unsupported.get("inorganic"):
+            parts.append(f"{_plural(self.unsupported['inorganic'], 'salt or mixture', 'salts or mixtures')} "
+                         "without carbon skipped")
+        return parts
 
     def tracked_rank(self) -> int | None:
         """Rank of the tracked answer counting ties against it; None if it was never scored."""
@@ -191,33 +223,56 @@ def score(smiles: str, observation: Observation, settings: Settings = DEFAULT_SE
 # ------------------------------------------------------------ candidates ----
 
 
-def read_candidates(path: str) -> tuple[list[str], int]:
-    """SMILES (one per line, optional name after white space) or SDF; returns (smiles, bad lines)."""
+class CandidateFile(NamedTuple):
+    """The structures of a candidates file and what reading them took.
+
+    ``smiles`` are canonical SMILES of neutral, closed-shell molecules (``rank.standardize``):
+    a salt or mixture is its largest organic component, an ion its neutral form.
+    """
+
+    smiles: list[str]
+    unreadable: int
+    mixtures: int
+    neutralised: int
+    unsupported: Counter
+    elements: tuple[str, ...]
+
+
+def read_candidates(path: str) -> CandidateFile:
+    """SMILES (one per line, optional name after white space) or SDF.
+
+    Lines RDKit cannot read are counted in ``unreadable``; structures with other
+    elements, radicals and mixtures without carbon are skipped and counted in
+    ``unsupported`` by kind (``"elements"``, ``"radical"``, ``"inorganic"``).
+    """
     file = Path(path)
     if not file.is_file():
         raise InputError(f"candidates file {path!r} not found")
-    smiles, bad = [], 0
     if file.suffix.lower() in (".sdf", ".sd", ".mol"):
-        for mol in Chem.SDMolSupplier(str(file)):
-            if mol is None:
-                bad += 1
-            else:
-                smiles.append(Chem.MolToSmiles(mol))
-        return smiles, bad
-    try:
-        lines = file.read_text(encoding="utf-8").splitlines()
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read candidates file {path!r}: {exc}") from None
-    for line in lines:
-        text = line.strip()
-        if not text or text.startswith("#"):
-            continue
-        mol = Chem.MolFromSmiles(text.split()[0])
+        records = [(mol, None if mol is None else Chem.MolToSmiles(mol)) for mol in Chem.SDMolSupplier(str(file))]
+    else:
+        try:
+            lines = file.read_text(encoding="utf-8").splitlines()
+        except (OSError, UnicodeDecodeError) as exc:
+            raise InputError(f"cannot read candidates file {path!r}: {exc}") from None
+        texts = [line.split()[0] for line in lines if line.strip() and not line.strip().startswith("#")]
+        records = [(Chem.MolFromSmiles(t), t) for t in texts]
+    smiles, unreadable, mixtures, neutralised = [], 0, 0, 0
+    unsupported, elements = Counter(), set()
+    for mol, text in records:
         if mol is None:
-            bad += 1
-        else:
-            smiles.append(Chem.MolToSmiles(mol))
-    return smiles, bad
+            unreadable += 1
+            continue
+        try:
+            used = standardize(mol, text)
+        except Unsupported as exc:
+            unsupported[exc.kind] += 1
+            elements.update(exc.elements)
+            continue
+        mixtures += used.mixture
+        neutralised += used.neutralised
+        smiles.append(used.smiles)
+    return CandidateFile(smiles, unreadable, mixtures, neutralised, unsupported, tuple(sorted(elements)))
 
 
 # --------------------------------------------------------------- ranking ----
@@ -306,6 +361,8 @@ class _Tally:
     misfits: list[float]
     tracked: float | None
     timed_out: bool
+    rejected: Counter = field(default_factory=Counter)
+    filtered: Counter = field(default_factory=Counter)
 
 
 _job: _Job | None = None
@@ -314,6 +371,20 @@ _job: _Job | None = None
 def _set_job(job: _Job) -> None:
     global _job
     _job = job
+
+
+def _start_worker(job: _Job) -> None:
+    """A worker leaves Ctrl-C to the parent, which stops it; then it takes the job."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    _set_job(job)
+
+
+def available_cores() -> int:
+    """The CPU cores this process may run on (its affinity mask where the system has one)."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except (AttributeError, OSError):
+        return max(1, os.cpu_count() or 1)
 
 
 def _run_unit(unit: _Unit) -> _Tally:
@@ -343,8 +414,10 @@ def _run_unit(unit: _Unit) -> _Tally:
                 tracked = result.misfit
     if job.deadline is not None and time.time() > job.deadline:
         timed_out = True
-    hinted = stream.hinted if stream is not None else Counter()
-    return _Tally(best.items(), log_norm, scored, hinted, misfits, tracked, timed_out)
+    if stream is None:
+        return _Tally(best.items(), log_norm, scored, Counter(), misfits, tracked, timed_out)
+    return _Tally(best.items(), log_norm, scored, stream.hinted, misfits, tracked, timed_out,
+                  stream.rejected, stream.removed)
 
 
 @dataclass
@@ -359,7 +432,8 @@ class Identifier:
     require, forbid : SMARTS that narrow the candidates.
     use_hints : read hints from the spectrum to narrow the isomer space
         (each one reported with what it removed).
-    workers : processes that generate and score; 1 works in this process.
+    workers : processes that generate and score; 1 works in this process
+        (the command line's default is :func:`available_cores`).
         The result does not depend on it: the work is cut into the same units
         whatever the number of workers, and merged in unit order.
     budget : seconds after which the run stops and says it is incomplete.
@@ -384,7 +458,16 @@ class Identifier:
     track: str | None = None
 
     def identify(self, formula: str, peaks: str | Spectrum, candidates: str | None = None) -> Shortlist:
-        """Run the identification; ``peaks`` is inline text, a file path or a Spectrum."""
+        """Run the identification; ``peaks`` is inline text, a file path or a Spectrum.
+
+        Raises
+        ------
+        InputError
+            Bad input; a generated space estimated above the ceiling
+            (:class:`rank.generate.SpaceTooLarge`, with advice that can work); or no
+            structure left to rank, naming what left none (a pattern, the hints,
+            the filters, or a candidates file without the formula).
+        """
         if self.top < 1:
             raise InputError("--top must be at least 1")
         if self.workers < 1:
@@ -405,45 +488,88 @@ class Identifier:
         job = _Job(parsed, tuple(self.require), tuple(self.forbid), hints, observation, self.settings,
                    self.top, temperature(), self.track, deadline)
         if candidates is None:
-            stream = IsomerStream(parsed, require=self.require, forbid=self.forbid, ceiling=self.ceiling,
-                                  hints=hints)
-            stream._check_ceiling()
-            stream.hinted.clear()
-            units = [_Unit(tuple(types), part, parts) for types in stream.runs()
-                     for parts in [_shares(stream, types)] for part in range(parts)]
-            result.hinted = dict(stream.hinted)
+            units, pruned = self._generated_units(result)
         else:
-            listed, result.skipped_inputs = read_candidates(candidates)
-            suspects = list(self._suspects(listed, parsed, require, forbid, result))
-            units = [_Unit(smiles=tuple(suspects[i:i + _CHUNK])) for i in range(0, len(suspects), _CHUNK)]
-        best, log_norm, timed_out = _Best(self.top), -math.inf, False
-        for done, tally in enumerate(self._tallies(job, units), 1):
-            result.explored += tally.scored
-            log_norm = _logaddexp(log_norm, tally.log_norm)
-            for s in tally.best:
-                best.add(s)
-            for name, n in tally.hinted.items():
-                result.hinted[name] = result.hinted.get(name, 0) + n
-            result.misfits.extend(tally.misfits)
-            if tally.tracked is not None:
-                result.tracked_misfit = tally.tracked
-            timed_out = timed_out or tally.timed_out
-            if self.progress:
-                print(f"peakrank: {done}/{len(units)} work units, {result.explored:,} candidates scored, "
-                      f"{time.time() - start:.0f} s", file=sys.stderr, end="\r", flush=True)
-        if self.progress and units:
-            print(file=sys.stderr)
-        result.complete = not timed_out
+            units, pruned = self._listed_units(candidates, require, forbid, result), Counter()
+        best, log_norm, filtered = self._merge(job, units, result, start)
+        if result.explored == 0 and result.complete:
+            raise InputError(_nothing_left(result, filtered, pruned, candidates))
         result.candidates = _ranked(best.items(), log_norm, job.temperature)
         return result
 
+    def _generated_units(self, result: Shortlist) -> tuple[list[_Unit], Counter]:
+        """The generator's work units, once the space is known to be under the ceiling; and the
+        hydrogen distributions a one-atom pattern ruled out (pattern -> count)."""
+        stream = IsomerStream(result.formula, require=self.require, forbid=self.forbid, ceiling=self.ceiling,
+                              hints=result.hints)
+        try:
+            stream.check_ceiling()
+        except SpaceTooLarge as exc:
+            raise exc.with_advice(_SUSPECTS_ADVICE if exc.hopeless else _NARROW_ADVICE) from None
+        stream.hinted.clear()
+        units = [_Unit(tuple(types), part, parts) for types in stream.runs()
+                 for parts in [_shares(stream, types)] for part in range(parts)]
+        result.hinted = dict(stream.hinted)
+        return units, stream.pruned
+
+    def _listed_units(self, path: str, require, forbid, result: Shortlist) -> list[_Unit]:
+        """A candidates file's structures of the formula that pass the patterns, in chunks;
+        what was changed or left out is counted in ``result``."""
+        listed = read_candidates(path)
+        result.skipped_inputs, result.mixtures, result.neutralised = \
+            listed.unreadable, listed.mixtures, listed.neutralised
+        result.unsupported, result.unsupported_elements = dict(listed.unsupported), listed.elements
+        suspects = list(self._suspects(listed.smiles, result.formula, require, forbid, result))
+        return [_Unit(smiles=tuple(suspects[i:i + _CHUNK])) for i in range(0, len(suspects), _CHUNK)]
+
+    def _merge(self, job: _Job, units: list[_Unit], result: Shortlist, start: float) -> tuple[_Best, float, Counter]:
+        """Run the units and merge their tallies in unit order into ``result``; returns the best
+        candidates, the log of the softmax normaliser and the structures each filter removed."""
+        best, log_norm, timed_out, filtered = _Best(self.top), -math.inf, False, Counter()
+        try:
+            for done, tally in enumerate(self._tallies(job, units), 1):
+                result.explored += tally.scored
+                log_norm = _logaddexp(log_norm, tally.log_norm)
+                for s in tally.best:
+                    best.add(s)
+                _add_counts(result.hinted, tally.hinted)
+                _add_counts(result.rejected, tally.rejected)
+                filtered.update(tally.filtered)
+                result.misfits.extend(tally.misfits)
+                if tally.tracked is not None:
+                    result.tracked_misfit = tally.tracked
+                timed_out = timed_out or tally.timed_out
+                if self.progress:
+                    print(f"peakrank: {done}/{len(units)} work units, {result.explored:,} candidates scored, "
+                          f"{time.time() - start:.0f} s", file=sys.stderr, end="\r", flush=True)
+        finally:
+            if self.progress and units:
+                print(file=sys.stderr)  # end the progress line, also when interrupted
+        result.complete = not timed_out
+        return best, log_norm, filtered
+
     def _tallies(self, job: _Job, units: list[_Unit]) -> Iterator[_Tally]:
+        """The units' tallies in unit order, from this process or from worker processes.
+
+        Workers ignore Ctrl-C; when the parent is interrupted (or stops reading), the
+        pending units are cancelled and the workers terminated at once, rather than
+        waiting for the units they are running.
+        """
         if self.workers == 1 or len(units) < 2:
             _set_job(job)
             yield from map(_run_unit, units)
             return
-        with ProcessPoolExecutor(max_workers=self.workers, initializer=_set_job, initargs=(job,)) as pool:
+        pool = ProcessPoolExecutor(max_workers=min(self.workers, len(units)), initializer=_start_worker,
+                                   initargs=(job,))
+        finished = False
+        try:
             yield from pool.map(_run_unit, units, chunksize=1)
+            finished = True
+        finally:
+            if finished:
+                pool.shutdown(wait=True)
+            else:
+                _stop(pool)
 
     def _suspects(self, smiles: list[str], formula: Formula, require, forbid, result: Shortlist) -> Iterator[str]:
         seen = set()
@@ -452,11 +578,92 @@ class Identifier:
             if rdMolDescriptors.CalcMolFormula(mol) != formula.hill:
                 result.other_formula += 1
                 continue
-            if any(not mol.HasSubstructMatch(p) for p in require) or any(mol.HasSubstructMatch(p) for p in forbid):
+            failed = next((f"--require {t!r}" for t, p in zip(self.require, require) if not mol.HasSubstructMatch(p)),
+                          None) or next((f"--forbid {t!r}" for t, p in zip(self.forbid, forbid)
+                                         if mol.HasSubstructMatch(p)), None)
+            if failed is not None:
+                result.rejected[failed] = result.rejected.get(failed, 0) + 1
                 continue
             if s not in seen:
                 seen.add(s)
                 yield s
+
+
+_SUSPECTS_ADVICE = ("give the suspects as --candidates FILE (SMILES lines or SDF, e.g. the known structures "
+                    "of this formula from a database)")
+_NARROW_ADVICE = ("narrow it with --require/--forbid, score a list of suspects with --candidates FILE, "
+                  "or pass --ceiling 0 to lift the limit")
+
+
+def _stop(pool: ProcessPoolExecutor) -> None:
+    """Cancel what has not started and end the workers now (Ctrl-C, or the caller stopped reading)."""
+    terminate = getattr(pool, "terminate_workers", None)  # Python 3.14 and later
+    if terminate is not None:
+        terminate()
+        return
+    # before 3.14 the workers are reached through the pool's process table, which shutdown clears
+    processes = list((getattr(pool, "_processes", None) or {}).values())
+    pool.shutdown(wait=False, cancel_futures=True)
+    for process in processes:
+        if process.is_alive():
+            process.terminate()
+    deadline = time.monotonic() + 1.0
+    for process in processes:
+        process.join(max(0.0, deadline - time.monotonic()))
+        if process.is_alive():
+            process.kill()
+
+
+def _plural(n: int, one: str, many: str) -> str:
+    return f"{n:,} {one if n == 1 else many}"
+
+
+def _add_counts(into: dict[str, int], counts: Counter) -> None:
+    for name, n in counts.items():
+        into[name] = into.get(name, 0) + n
+
+
+def _nothing_left(result: Shortlist, filtered: Counter, pruned: Counter, candidates: str | None) -> str:
+    """Why no candidate was scored, in one line that says what to change.
+
+    The user's patterns come last in the pipeline, so when they left out anything
+    they are named first, with what the hints had left them.
+    """
+    hill = result.formula.hill
+    hinted = ", ".join(sorted(result.hinted)) if sum(result.hinted.values()) else ""
+    no_hints = ", or pass --no-hints if a hint is wrong" if hinted else ""
+    if candidates is not None and not result.rejected:
+        if result.other_formula:
+            return (f"no structure in the candidates file has formula {hill} ({result.other_formula} have "
+                    "another formula); check the formula and the file")
+        why = [_plural(result.skipped_inputs, "unreadable line", "unreadable lines")] if result.skipped_inputs else []
+        why += result._candidates_file_changes()
+        return (f"the candidates file {candidates!r} holds no structure peakrank can use"
+                + (f" ({'; '.join(why)})" if why else " (no SMILES lines or SDF records)"))
+    source = " in the candidates file" if candidates is not None else ""
+    if result.rejected:
+        tried = sum(result.rejected.values())
+        context = f" among the {tried:,} the hints left ({hinted})" if hinted else f" ({tried:,} tried)"
+        if len(result.rejected) == 1:
+            (label, _), = result.rejected.items()
+            what = "no structure" if label.startswith("--require") else "every structure"
+            return f"{what} of {hill}{source} matches {label}{context}; check the pattern and the formula{no_hints}"
+        parts = ", ".join(f"{n:,} {'without' if label.startswith('--require') else 'with'} {label.split(' ', 1)[1]}"
+                          f" ({label.split(' ', 1)[0]})" for label, n in result.rejected.items())
+        return (f"no structure of {hill}{source} passes the patterns{context}: {parts}; "
+                f"check the patterns and the formula{no_hints}")
+    if pruned:
+        return f"no structure of {hill} can match {', '.join(pruned)}; check the pattern and the formula"
+    if hinted and filtered:
+        return (f"no structure of {hill} is left after the hints read from the peaks ({hinted}) and the "
+                f"plausibility filters ({', '.join(sorted(filtered))}); pass --no-hints if a hint is wrong")
+    if hinted:
+        return (f"the hints read from the peaks ({hinted}) leave no structure of {hill}; "
+                "pass --no-hints if a hint is wrong, or check the formula and the integrals")
+    if filtered:
+        return (f"every structure of {hill} is removed by the plausibility filters "
+                f"({', '.join(sorted(filtered))}, rules/filters.tsv); check the formula")
+    return f"no structure with standard valences has formula {hill}; check the formula"
 
 
 def _shares(stream: IsomerStream, types) -> int:

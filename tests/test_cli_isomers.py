@@ -177,16 +177,28 @@ def test_bad_input_from_python_m_rank_gives_exit_2_and_one_line(argv):
 
 
 @pytest.mark.parametrize("extra", [[], ["--all"]], ids=["default", "all"])
-def test_huge_formula_is_refused_quickly_naming_the_ceiling_flag(extra):
+def test_huge_formula_is_refused_quickly_pointing_to_a_list_of_suspects(extra):
+    # far beyond any run: lifting the ceiling is no advice, a list of suspects is
     start = time.monotonic()
     proc = _subprocess("isomers", "C20H20O4", *extra)
     elapsed = time.monotonic() - start
     assert proc.returncode == 2
     assert proc.stdout == ""
     assert len(proc.stderr.splitlines()) == 1, proc.stderr
-    assert "--ceiling" in proc.stderr
+    assert "--candidates" in proc.stderr
+    assert "pass --ceiling 0" not in proc.stderr
     assert "Traceback" not in proc.stderr
     assert elapsed < 15
+
+
+@pytest.mark.parametrize("extra", [[], ["--all"]], ids=["default", "all"])
+def test_formula_just_above_the_ceiling_is_refused_naming_the_ceiling_flag(extra, capsys):
+    code, out, err = _run(["isomers", "C11H16O", *extra], capsys)
+    assert code == 2
+    assert out == ""
+    assert len(err.splitlines()) == 1, err
+    assert "above the limit of 2,000,000" in err
+    assert "--ceiling 0" in err
 
 
 def test_budget_stops_a_long_run_and_says_it_is_incomplete(capsys):
