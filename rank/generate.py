@@ -311,7 +311,8 @@ class IsomerStream:
     require, forbid : iterable of str
         SMARTS every structure must match / must not match.
     ceiling : int
-        Refuse (InputError) when the estimated space is larger; 0 lifts it.
+        Refuse (:class:`SpaceTooLarge`, an InputError) when the estimated space is
+        larger; 0 lifts it.  See :meth:`check_ceiling`.
     budget : float, optional
         Seconds after which the stream stops; ``complete_run`` then says False.
     hints : iterable of rank.hints.Hint

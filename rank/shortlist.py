@@ -653,7 +653,11 @@ def _nothing_left(result: Shortlist, filtered: Counter, pruned: Counter, candida
         return (f"no structure of {hill}{source} passes the patterns{context}: {parts}; "
                 f"check the patterns and the formula{no_hints}")
     if pruned:
-        return f"no structure of {hill} can match {', '.join(pruned)}; check the pattern and the formula"
+        required = [label for label in pruned if label.startswith("--require")]
+        if required:
+            return f"no structure of {hill} can match {', '.join(required)}; check the pattern and the formula"
+        return (f"every structure of {hill} matches {', '.join(pruned)} (an atom of the formula does); "
+                "check the pattern and the formula")
     if hinted and filtered:
         return (f"no structure of {hill} is left after the hints read from the peaks ({hinted}) and the "
                 f"plausibility filters ({', '.join(sorted(filtered))}); pass --no-hints if a hint is wrong")
