@@ -78,9 +78,7 @@ def _version() -> str:
 
 
 def _workers_help() -> str:
-    from .shortlist import available_cores
-
-    return f"processes that generate and score (default: the cores this process may use, here {available_cores()})"
+    return "processes that generate and score (default: the cores this process may use)"
 
 
 def _workers(args: argparse.Namespace) -> int:
