@@ -11,7 +11,6 @@ import argparse
 import difflib
 import os
 import re
-import secrets
 import sys
 from collections.abc import Sequence
 from pathlib import Path
@@ -245,7 +244,7 @@ def _add_identify(sub) -> None:
 
 def _run_identify(args: argparse.Namespace) -> int:
     from .generate import DEFAULT_CEILING
-    from .report import csv_text, json_text, terminal_text
+    from .report import csv_text, json_text, terminal_text, write_whole_file
     from .shortlist import Identifier
 
     if args.top == 0:
@@ -275,12 +274,12 @@ def _run_identify(args: argparse.Namespace) -> int:
     texts = {option: render(option) for option in outputs}
     for option, path in outputs.items():
         if path != "-":
-            _write(path, texts[option], args.force)
+            write_whole_file(path, texts[option], args.force)
     to_stdout = next((option for option, path in outputs.items() if path == "-"), None)
     sys.stdout.write(texts[to_stdout] if to_stdout else terminal_text(result))
     sys.stdout.flush()
     note = result.candidates_file_note()
-    if note:
+    if note and to_stdout:  # the terminal text carries it otherwise
         print(f"peakrank: {note}", file=sys.stderr)
     if not result.complete:
         print("peakrank: the run stopped early; the list is incomplete", file=sys.stderr)
@@ -324,30 +323,6 @@ def _check_output_path(option: str, path: str, example: str, force: bool) -> Non
     if not os.access(folder, os.W_OK | os.X_OK) and not (target.exists() and not target.is_file()):
         raise InputError(f"{option} {path}: cannot write in folder {folder} (permission denied); "
                          "choose another path")
-
-
-def _write(path: str, text: str, force: bool) -> None:
-    """Write the whole text or nothing: into a hidden file beside the target, then renamed over it.
-
-    A path that exists but is not a regular file (``/dev/null``, a pipe) is written directly.
-    """
-    target = Path(path)
-    try:
-        if target.exists() and not target.is_file():
-            with open(target, "w", encoding="utf-8") as out:
-                out.write(text)
-            return
-        part = target.with_name(f".{target.name}.{secrets.token_hex(4)}.part")
-        try:
-            with open(part, "x", encoding="utf-8") as out:
-                out.write(text)
-            if target.exists() and not force:
-                raise InputError(f"{path} exists; choose another name or pass --force to replace it")
-            os.replace(part, target)
-        finally:
-            part.unlink(missing_ok=True)
-    except OSError as exc:
-        raise InputError(f"cannot write {path}: {exc.strerror or exc}; choose another path") from None
 
 
 def _run_isomers(args: argparse.Namespace) -> int:
@@ -398,6 +373,7 @@ def _run_predict(args: argparse.Namespace) -> int:
     from rdkit import Chem
 
     from .predict import Predictor, parse_smiles, signal_table
+    from .report import write_whole_file
 
     outputs = _check_outputs(args, {"--json": ("json", "signals.json")})
     predictor = Predictor(args.solvent, args.field)
@@ -413,7 +389,7 @@ def _run_predict(args: argparse.Namespace) -> int:
         doc.update({"input": args.smiles, "note": " ".join(notes)})
     text = json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
     if outputs.get("--json", "-") != "-":
-        _write(outputs["--json"], text, args.force)
+        write_whole_file(outputs["--json"], text, args.force)
     for note in notes:
         print(f"peakrank: {note}", file=sys.stderr)
     if outputs.get("--json") == "-":

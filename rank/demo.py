@@ -14,7 +14,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from .html import report_html
-from .report import terminal_text
+from .report import terminal_text, write_whole_file
 from .shortlist import Identifier, Shortlist
 
 if TYPE_CHECKING:
@@ -65,7 +65,7 @@ def run_demo(out: Path, top: int = 5, workers: int = 1, echo=print) -> list[tupl
             result = Identifier(top=top, workers=workers).identify(u.formula, str(peaks_file))
         echo(terminal_text(result))
         path = folder / f"{u.sample}.html"
-        path.write_text(report_html(result, title=f"{u.sample}: {u.note}"), encoding="utf-8")
+        write_whole_file(str(path), report_html(result, title=f"{u.sample}: {u.note}"))
         done.append((u, result, path))
     echo(f"reports written to {folder}/")
     return done

@@ -12,6 +12,8 @@ compares (equal misfits are ties), so the parts add up to the misfit shown.
 from __future__ import annotations
 
 import json
+import os
+import secrets
 from pathlib import Path
 
 from .errors import InputError
@@ -81,6 +83,7 @@ def to_json(result: Shortlist) -> dict:
                    "removed": result.hinted.get(h.name, 0)}
                   for h in result.hints],
         "candidates_file_skipped_lines": result.skipped_inputs,
+        "candidates_file_note": result.candidates_file_note(),
         "candidates_other_formula": result.other_formula,
         "candidates": [
             {
@@ -115,14 +118,28 @@ def _peak_caption(p) -> str:
     return f"{text} [{p.label}]" if p.label else text
 
 
-def write_text_file(path: str, text: str, force: bool) -> None:
-    """Write a file the user named; refuse to replace an existing one unless forced."""
+def write_whole_file(path: str, text: str, force: bool = False) -> None:
+    """Write the whole text or nothing: into a hidden file beside the target, then renamed over it.
+
+    A path that exists but is not a regular file (``/dev/null``, a pipe) is written directly.
+    """
     target = Path(path)
-    if target.exists() and not force:
-        raise InputError(f"{path} exists; choose another name or pass --force to replace it")
-    if not target.parent.exists():
-        raise InputError(f"folder {target.parent} does not exist")
-    target.write_text(text, encoding="utf-8")
+    try:
+        if target.exists() and not target.is_file():
+            with open(target, "w", encoding="utf-8") as out:
+                out.write(text)
+            return
+        part = target.with_name(f".{target.name}.{secrets.token_hex(4)}.part")
+        try:
+            with open(part, "x", encoding="utf-8") as out:
+                out.write(text)
+            if target.exists() and not force:
+                raise InputError(f"{path} exists; choose another name or pass --force to replace it")
+            os.replace(part, target)
+        finally:
+            part.unlink(missing_ok=True)
+    except OSError as exc:
+        raise InputError(f"cannot write {path}: {exc.strerror or exc}; choose another path") from None
 
 
 def json_text(result: Shortlist) -> str:
@@ -156,6 +173,8 @@ def terminal_text(result: Shortlist, detail: int = 1) -> str:
         lines.append(f"candidates file: {result.skipped_inputs} unreadable lines skipped")
     if result.other_formula:
         lines.append(f"candidates file: {result.other_formula} structures with another formula left out")
+    if result.candidates_file_note():
+        lines.append(result.candidates_file_note())
     state = "complete" if result.complete else "INCOMPLETE (budget spent: the truth may be missing)"
     lines.append(f"{result.explored:,} candidates scored; search {state}")
     lines.append("")
