@@ -23,11 +23,11 @@ from pathlib import Path
 
 import pandas as pd
 import pytest
+from clitools import one_line_error, run_cli, run_module
 
 import rank.bench
 import rank.demo
 import rank.shortlist
-from rank.cli import main
 from rank.errors import InputError
 from rank.generate import IsomerStream, SpaceTooLarge, atom_states
 from rank.predict import parse_smiles
@@ -43,28 +43,10 @@ SLOW = ["identify", "--formula", "C8H10O", "--peaks", "7.2 (m, 5H), 3.8 (t, 2H),
         "--no-hints", "--quiet"]
 
 
-def _run(argv: list[str], capsys) -> tuple[int, str, str]:
-    try:
-        code = main(argv)
-    except SystemExit as exc:  # argparse leaves through SystemExit
-        code = exc.code
-    out, err = capsys.readouterr()
-    return code, out, err
 
 
-def _subprocess(*args: str, cwd: Path | None = None, timeout: float = 120) -> subprocess.CompletedProcess:
-    return subprocess.run([sys.executable, "-m", "rank", *args], check=False, capture_output=True, text=True,
-                          timeout=timeout, cwd=cwd)
 
 
-def _one_line_error(code: int, out: str, err: str) -> str:
-    assert code == 2, (code, err)
-    assert "Traceback" not in err, err
-    lines = [ln for ln in err.splitlines() if ln.strip()]
-    assert len(lines) == 1, err
-    assert lines[0].startswith("peakrank")
-    assert out == ""
-    return lines[0]
 
 
 @pytest.fixture
@@ -83,14 +65,14 @@ OUTPUTS = ["--json", "--csv", "--report"]
 
 @pytest.mark.parametrize("option", OUTPUTS)
 def test_an_output_path_that_is_a_folder_is_refused_before_the_run(option, tmp_path, capsys, no_run):
-    line = _one_line_error(*_run([*IDENTIFY, option, str(tmp_path)], capsys))
+    line = one_line_error(*run_cli([*IDENTIFY, option, str(tmp_path)], capsys))
     assert "is a folder" in line and option in line
     assert list(tmp_path.iterdir()) == []
 
 
 @pytest.mark.parametrize("option", OUTPUTS)
 def test_an_output_path_in_a_missing_folder_is_refused_before_the_run(option, tmp_path, capsys, no_run):
-    line = _one_line_error(*_run([*IDENTIFY, option, str(tmp_path / "missing" / "out.txt")], capsys))
+    line = one_line_error(*run_cli([*IDENTIFY, option, str(tmp_path / "missing" / "out.txt")], capsys))
     assert "does not exist" in line
     assert list(tmp_path.iterdir()) == []
 
@@ -99,7 +81,7 @@ def test_an_output_path_in_a_missing_folder_is_refused_before_the_run(option, tm
 def test_an_existing_output_file_is_refused_before_the_run_without_force(option, tmp_path, capsys, no_run):
     target = tmp_path / "out.txt"
     target.write_text("keep me\n", encoding="utf-8")
-    line = _one_line_error(*_run([*IDENTIFY, option, str(target)], capsys))
+    line = one_line_error(*run_cli([*IDENTIFY, option, str(target)], capsys))
     assert "--force" in line
     assert target.read_text(encoding="utf-8") == "keep me\n"
 
@@ -107,20 +89,20 @@ def test_an_existing_output_file_is_refused_before_the_run_without_force(option,
 @pytest.mark.parametrize(("first", "second"), [("--json", "--csv"), ("--csv", "--report"), ("--json", "--report")])
 def test_two_outputs_to_standard_output_are_refused(first, second, capsys, no_run):
     # common practice: '-' is standard output, and two documents there would be mixed
-    line = _one_line_error(*_run([*IDENTIFY, first, "-", second, "-"], capsys))
+    line = one_line_error(*run_cli([*IDENTIFY, first, "-", second, "-"], capsys))
     assert "standard output" in line
 
 
 def test_two_outputs_naming_the_same_file_are_refused(tmp_path, capsys, no_run):
     same = str(tmp_path / "out.txt")
-    line = _one_line_error(*_run([*IDENTIFY, "--json", same, "--csv", same], capsys))
+    line = one_line_error(*run_cli([*IDENTIFY, "--json", same, "--csv", same], capsys))
     assert "--json and --csv" in line
     assert list(tmp_path.iterdir()) == []
 
 
 def test_csv_to_standard_output_is_the_csv_and_nothing_else(capsys):
     # common practice: '-' is standard output
-    code, out, err = _run([*IDENTIFY, "--csv", "-"], capsys)
+    code, out, err = run_cli([*IDENTIFY, "--csv", "-"], capsys)
     assert code == 0, err
     frame = pd.read_csv(io.StringIO(out))
     assert list(frame.columns[:3]) == ["rank", "smiles", "inchikey"]
@@ -129,7 +111,7 @@ def test_csv_to_standard_output_is_the_csv_and_nothing_else(capsys):
 
 
 def test_report_to_standard_output_is_the_html_and_nothing_else(capsys):
-    code, out, err = _run([*IDENTIFY, "--report", "-"], capsys)
+    code, out, err = run_cli([*IDENTIFY, "--report", "-"], capsys)
     assert code == 0, err
     assert out.lstrip().lower().startswith("<!doctype html")
 
@@ -139,7 +121,7 @@ def test_a_failed_write_leaves_neither_the_file_nor_a_part_file(tmp_path, capsys
         raise KeyboardInterrupt
 
     monkeypatch.setattr(os, "replace", interrupted)
-    code, _, err = _run([*IDENTIFY, "--json", str(tmp_path / "short.json")], capsys)
+    code, _, err = run_cli([*IDENTIFY, "--json", str(tmp_path / "short.json")], capsys)
     assert code == 130
     assert err == "peakrank: interrupted\n"
     assert list(tmp_path.iterdir()) == []
@@ -147,7 +129,7 @@ def test_a_failed_write_leaves_neither_the_file_nor_a_part_file(tmp_path, capsys
 
 def test_outputs_are_written_whole(tmp_path, capsys):
     paths = {option: tmp_path / f"out{option[2:]}" for option in OUTPUTS}
-    code, _, err = _run([*IDENTIFY, *(a for o, p in paths.items() for a in (o, str(p)))], capsys)
+    code, _, err = run_cli([*IDENTIFY, *(a for o, p in paths.items() for a in (o, str(p)))], capsys)
     assert code == 0, err
     assert json.loads(paths["--json"].read_text(encoding="utf-8"))["candidates"][0]["smiles"] == "CCOC(C)=O"
     assert pd.read_csv(paths["--csv"])["smiles"].iloc[0] == "CCOC(C)=O"
@@ -160,7 +142,7 @@ def test_predict_json_path_is_checked_like_identify(case, tmp_path, capsys):
     existing = tmp_path / "signals.json"
     existing.write_text("keep me\n", encoding="utf-8")
     path = {"folder": tmp_path, "missing folder": tmp_path / "missing" / "s.json", "existing file": existing}[case]
-    _one_line_error(*_run(["predict", "CCO", "--json", str(path)], capsys))
+    one_line_error(*run_cli(["predict", "CCO", "--json", str(path)], capsys))
     assert existing.read_text(encoding="utf-8") == "keep me\n"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["signals.json"]
 
@@ -175,7 +157,7 @@ def test_supported_elements_are_those_of_the_valence_table():
 def test_predict_takes_the_largest_organic_component_of_a_salt_and_says_so(capsys):
     # sodium acetate: acetate is taken in its neutral form, acetic acid (common practice for
     # additive shift rules written for neutral molecules)
-    code, out, err = _run(["predict", "CC(=O)[O-].[Na+]", "--json", "-"], capsys)
+    code, out, err = run_cli(["predict", "CC(=O)[O-].[Na+]", "--json", "-"], capsys)
     assert code == 0, err
     doc = json.loads(out)
     assert doc["smiles"] == "CC(=O)O"
@@ -195,32 +177,32 @@ def test_predict_of_a_mixture_indexes_atoms_in_the_printed_smiles():
 @pytest.mark.parametrize(("smiles", "element"), [("C[Si](C)(C)C", "Si"), ("OB(O)c1ccccc1", "B"),
                                                  ("c1cc[se]c1", "Se"), ("C[Hg]Cl", "Hg")])
 def test_predict_refuses_other_elements_naming_the_supported_ones(smiles, element, capsys):
-    line = _one_line_error(*_run(["predict", smiles], capsys))
+    line = one_line_error(*run_cli(["predict", smiles], capsys))
     assert f"contains {element}" in line
     assert "C, H, N, O, S, P, F, Cl, Br and I" in line
 
 
 def test_predict_refuses_a_radical_and_suggests_the_closed_shell_molecule(capsys):
     # [CH3] is the methyl radical in SMILES (OpenSMILES: bracket atoms carry their H count)
-    line = _one_line_error(*_run(["predict", "C[CH2]"], capsys))
+    line = one_line_error(*run_cli(["predict", "C[CH2]"], capsys))
     assert "radical" in line and "'CC'" in line
 
 
 def test_predict_refuses_a_salt_without_carbon(capsys):
-    line = _one_line_error(*_run(["predict", "[Na+].[Cl-]"], capsys))
+    line = one_line_error(*run_cli(["predict", "[Na+].[Cl-]"], capsys))
     assert "no organic component" in line
 
 
 def test_predict_keeps_charge_separated_groups_as_drawn(capsys):
     # nitrobenzene as chemists draw it: N+ and O- balance inside the molecule
-    code, out, err = _run(["predict", "O=[N+]([O-])c1ccccc1"], capsys)
+    code, out, err = run_cli(["predict", "O=[N+]([O-])c1ccccc1"], capsys)
     assert code == 0 and err == ""
     assert out.startswith("O=[N+]([O-])c1ccccc1")
 
 
 def test_predict_takes_an_onium_ion_as_written_and_says_so(capsys):
     # trimethylsulfonium has no H that could cancel its charge
-    code, out, err = _run(["predict", "C[S+](C)C"], capsys)
+    code, out, err = run_cli(["predict", "C[S+](C)C"], capsys)
     assert code == 0
     assert "charge +1" in err and len(err.splitlines()) == 1
     assert out.startswith("C[S+](C)C")
@@ -265,7 +247,7 @@ def test_candidates_file_counts_salts_other_elements_and_radicals(tmp_path):
 
 
 def test_candidates_file_changes_are_reported_once_on_stderr(tmp_path, capsys):
-    code, out, err = _run([*IDENTIFY, "--candidates", str(_suspects_file(tmp_path)), "--json", "-"], capsys)
+    code, out, err = run_cli([*IDENTIFY, "--candidates", str(_suspects_file(tmp_path)), "--json", "-"], capsys)
     assert code == 0, err
     json.loads(out)
     lines = err.splitlines()
@@ -284,9 +266,9 @@ HOPELESS = {"C40H82": "1.25 (m, 76H), 0.88 (t, J = 7.0 Hz, 6H)",
 @pytest.mark.parametrize("formula", HOPELESS)
 def test_a_hopeless_space_is_refused_within_seconds_pointing_to_a_list_of_suspects(formula):
     start = time.monotonic()
-    proc = _subprocess("isomers", formula, timeout=60)
+    proc = run_module("isomers", formula, timeout=60)
     elapsed = time.monotonic() - start
-    line = _one_line_error(proc.returncode, proc.stdout, proc.stderr)
+    line = one_line_error(proc.returncode, proc.stdout, proc.stderr)
     assert "structures to build" in line and "--candidates" in line
     assert "pass --ceiling 0" not in line
     assert elapsed < 10
@@ -295,18 +277,18 @@ def test_a_hopeless_space_is_refused_within_seconds_pointing_to_a_list_of_suspec
 @pytest.mark.parametrize("formula", HOPELESS)
 def test_identify_refuses_a_hopeless_space_within_seconds_pointing_to_candidates(formula, capsys):
     start = time.monotonic()
-    line = _one_line_error(*_run(["identify", "--formula", formula, "--peaks", HOPELESS[formula]], capsys))
+    line = one_line_error(*run_cli(["identify", "--formula", formula, "--peaks", HOPELESS[formula]], capsys))
     assert time.monotonic() - start < 10
     assert "--candidates FILE" in line and "pass --ceiling 0" not in line
 
 
 def test_a_space_just_above_the_ceiling_still_offers_to_lift_it(capsys):
-    line = _one_line_error(*_run(["isomers", "C12H20O2"], capsys))
+    line = one_line_error(*run_cli(["isomers", "C12H20O2"], capsys))
     assert "above the limit of 2,000,000" in line and "--ceiling 0" in line
 
 
 def test_ceiling_0_still_starts_a_large_run(capsys):
-    code, out, err = _run(["isomers", "C12H20O2", "--ceiling", "0", "--budget", "0.5"], capsys)
+    code, out, err = run_cli(["isomers", "C12H20O2", "--ceiling", "0", "--budget", "0.5"], capsys)
     assert code == 0
     assert out.splitlines()
     assert "incomplete" in err
@@ -326,19 +308,19 @@ def test_the_early_stop_refuses_exactly_when_the_whole_estimate_passes_the_ceili
 
 def test_a_required_group_no_isomer_has_exits_2_naming_it(capsys):
     # C4H10O is saturated: no isomer has a C=O group (DBE 0)
-    line = _one_line_error(*_run(["identify", "--formula", "C4H10O", "--peaks", "3.4 (q, 4H), 1.2 (t, 6H)",
+    line = one_line_error(*run_cli(["identify", "--formula", "C4H10O", "--peaks", "3.4 (q, 4H), 1.2 (t, 6H)",
                                   "--require", "C=O", "--no-hints"], capsys))
     assert "no structure of C4H10O matches --require 'C=O'" in line
 
 
 def test_a_forbidden_atom_every_isomer_has_exits_2_naming_it(capsys):
-    line = _one_line_error(*_run(["identify", "--formula", "C4H10O", "--peaks", "3.4 (q, 4H), 1.2 (t, 6H)",
+    line = one_line_error(*run_cli(["identify", "--formula", "C4H10O", "--peaks", "3.4 (q, 4H), 1.2 (t, 6H)",
                                   "--forbid", "[#8]", "--no-hints"], capsys))
     assert "every structure of C4H10O matches --forbid '[#8]'" in line
 
 
 def test_a_pattern_no_atom_of_the_formula_can_match_exits_2_naming_it(capsys):
-    line = _one_line_error(*_run(["identify", "--formula", "C4H10O", "--peaks", "3.4 (q, 4H), 1.2 (t, 6H)",
+    line = one_line_error(*run_cli(["identify", "--formula", "C4H10O", "--peaks", "3.4 (q, 4H), 1.2 (t, 6H)",
                                   "--require", "[#7]", "--no-hints"], capsys))
     assert "--require '[#7]'" in line
 
@@ -346,7 +328,7 @@ def test_a_pattern_no_atom_of_the_formula_can_match_exits_2_naming_it(capsys):
 def test_a_candidates_file_without_the_formula_exits_2_saying_so(tmp_path, capsys):
     path = tmp_path / "other.smi"
     path.write_text("CCO\nCC(C)=O\n", encoding="utf-8")
-    line = _one_line_error(*_run([*IDENTIFY, "--candidates", str(path)], capsys))
+    line = one_line_error(*run_cli([*IDENTIFY, "--candidates", str(path)], capsys))
     assert "no structure in the candidates file has formula C4H8O2" in line
 
 
@@ -367,13 +349,13 @@ def test_the_api_raises_when_nothing_is_left():
 ])
 def test_a_misspelled_option_or_command_suggests_the_closest(argv, meant, capsys):
     # common practice: "did you mean ...?"
-    line = _one_line_error(*_run(argv, capsys))
+    line = one_line_error(*run_cli(argv, capsys))
     assert f"did you mean {meant}?" in line
 
 
 def test_version_prints_the_installed_version():
     # common practice: NAME --version prints "NAME X.Y.Z" and exits 0
-    proc = _subprocess("--version")
+    proc = run_module("--version")
     assert proc.returncode == 0
     assert proc.stdout == f"peakrank {version('peakrank')}\n"
 
@@ -440,7 +422,7 @@ def test_default_workers_are_the_cores_this_process_may_use(capsys, monkeypatch)
     monkeypatch.setattr(rank.shortlist.Identifier, "identify", identify)
     monkeypatch.setattr(rank.bench, "run_case", run_case)
     monkeypatch.setattr(rank.demo, "run_demo", run_demo)
-    _run(IDENTIFY, capsys)
-    _run(["bench", str(ROOT / "benchmarks" / "known.tsv"), "--only", "ethyl_acetate"], capsys)
-    _run(["demo", "--out", "unused"], capsys)
+    run_cli(IDENTIFY, capsys)
+    run_cli(["bench", str(ROOT / "benchmarks" / "known.tsv"), "--only", "ethyl_acetate"], capsys)
+    run_cli(["demo", "--out", "unused"], capsys)
     assert seen == {"identify": expected, "bench": expected, "demo": expected}

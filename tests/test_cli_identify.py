@@ -12,15 +12,13 @@ from __future__ import annotations
 import csv
 import json
 import re
-import subprocess
-import sys
 from pathlib import Path
 
 import pandas as pd
 import pytest
+from clitools import one_line_error, run_cli, run_module
 from rdkit import Chem
 
-from rank.cli import main
 from rank.shortlist import Identifier
 
 KNOWN = Path(__file__).resolve().parent.parent / "benchmarks" / "known.tsv"
@@ -36,34 +34,17 @@ ETHYL_ACETATE = ROWS["ethyl_acetate"]  # 4.12 (q, 2H), 2.05 (s, 3H), 1.26 (t, 3H
 BASE = ["identify", "--formula", ETHYL_ACETATE["formula"], "--peaks", ETHYL_ACETATE["peaks"], "--top", "5"]
 
 
-def _run(argv: list[str], capsys) -> tuple[int, str, str]:
-    try:
-        code = main(argv)
-    except SystemExit as exc:  # argparse leaves through SystemExit
-        code = exc.code
-    out, err = capsys.readouterr()
-    return code, out, err
 
 
-def _subprocess(*args: str, cwd: Path | None = None, timeout: float = 120) -> subprocess.CompletedProcess:
-    return subprocess.run([sys.executable, "-m", "rank", *args], check=False, capture_output=True, text=True,
-                          timeout=timeout, cwd=cwd)
 
 
-def _assert_one_line_error(code: int, out: str, err: str) -> None:
-    assert code == 2, (code, err)
-    assert "Traceback" not in err, err
-    lines = [ln for ln in err.splitlines() if ln.strip()]
-    assert len(lines) == 1, err
-    assert lines[0].startswith("peakrank")
-    assert out == ""
 
 
 # -------------------------------------------------------------- terminal ----
 
 
 def test_terminal_table_lists_rank_smiles_misfit_and_confidence(capsys):
-    code, out, err = _run(BASE, capsys)
+    code, out, err = run_cli(BASE, capsys)
     assert code == 0, err
     assert "Traceback" not in err
     expected = Identifier(top=5).identify(ETHYL_ACETATE["formula"], ETHYL_ACETATE["peaks"])
@@ -80,14 +61,14 @@ def test_terminal_table_lists_rank_smiles_misfit_and_confidence(capsys):
 
 
 def test_terminal_output_carries_the_caution(capsys):
-    _, out, _ = _run(BASE, capsys)
+    _, out, _ = run_cli(BASE, capsys)
     assert "hypothesis, not an identification" in out
     assert "reference standard" in out
     assert "hazardous" in out
 
 
 def test_terminal_output_explains_the_best_candidate_signal_by_signal(capsys):
-    _, out, _ = _run(BASE, capsys)
+    _, out, _ = run_cli(BASE, capsys)
     best = Identifier(top=5).identify(ETHYL_ACETATE["formula"], ETHYL_ACETATE["peaks"]).candidates[0]
     assert f"assignment of rank 1, {best.smiles}" in out
     # each predicted signal of the best candidate is shown with the increment arithmetic of its shift
@@ -96,8 +77,8 @@ def test_terminal_output_explains_the_best_candidate_signal_by_signal(capsys):
 
 
 def test_python_m_rank_prints_the_same_table(capsys):
-    _, inproc, _ = _run(BASE, capsys)
-    proc = _subprocess(*BASE)
+    _, inproc, _ = run_cli(BASE, capsys)
+    proc = run_module(*BASE)
     assert proc.returncode == 0, proc.stderr
     assert "Traceback" not in proc.stderr
     assert proc.stdout == inproc
@@ -126,7 +107,7 @@ def _check_json_document(doc: dict, formula: str) -> None:
 
 
 def test_json_to_stdout_is_valid_json_and_nothing_else():
-    proc = _subprocess(*BASE, "--json", "-")
+    proc = run_module(*BASE, "--json", "-")
     assert proc.returncode == 0, proc.stderr
     assert proc.stderr == ""
     doc = json.loads(proc.stdout)
@@ -135,7 +116,7 @@ def test_json_to_stdout_is_valid_json_and_nothing_else():
 
 
 def test_json_to_stdout_in_process_matches_the_api(capsys):
-    code, out, err = _run([*BASE, "--json", "-"], capsys)
+    code, out, err = run_cli([*BASE, "--json", "-"], capsys)
     assert code == 0, err
     doc = json.loads(out)
     expected = Identifier(top=5).identify(ETHYL_ACETATE["formula"], ETHYL_ACETATE["peaks"])
@@ -146,7 +127,7 @@ def test_json_to_stdout_in_process_matches_the_api(capsys):
 
 def test_json_file_is_written_and_the_table_still_printed(tmp_path, capsys):
     target = tmp_path / "short.json"
-    code, out, err = _run([*BASE, "--json", str(target)], capsys)
+    code, out, err = run_cli([*BASE, "--json", str(target)], capsys)
     assert code == 0, err
     _check_json_document(json.loads(target.read_text(encoding="utf-8")), "C4H8O2")
     assert "CCOC(C)=O" in out and "misfit" in out
@@ -157,11 +138,11 @@ def test_json_file_is_written_and_the_table_still_printed(tmp_path, capsys):
 
 def test_csv_file_has_one_row_per_candidate(tmp_path, capsys):
     target = tmp_path / "short.csv"
-    code, _, err = _run([*BASE, "--csv", str(target)], capsys)
+    code, _, err = run_cli([*BASE, "--csv", str(target)], capsys)
     assert code == 0, err
     frame = pd.read_csv(target)
     assert {"rank", "smiles", "inchikey", "misfit", "confidence"} <= set(frame.columns)
-    code, out, _ = _run([*BASE, "--json", "-"], capsys)
+    code, out, _ = run_cli([*BASE, "--json", "-"], capsys)
     doc = json.loads(out)
     assert list(frame["smiles"]) == [c["smiles"] for c in doc["candidates"]]
     assert list(frame["rank"]) == [c["rank"] for c in doc["candidates"]]
@@ -176,8 +157,8 @@ def test_csv_file_has_one_row_per_candidate(tmp_path, capsys):
 def test_existing_output_file_is_not_replaced_without_force(option, tmp_path, capsys):
     target = tmp_path / ("out.json" if option == "--json" else "out.csv")
     target.write_text("keep me\n", encoding="utf-8")
-    code, out, err = _run([*BASE, option, str(target)], capsys)
-    _assert_one_line_error(code, out, err)
+    code, out, err = run_cli([*BASE, option, str(target)], capsys)
+    one_line_error(code, out, err)
     assert "--force" in err
     assert target.read_text(encoding="utf-8") == "keep me\n"
 
@@ -186,7 +167,7 @@ def test_existing_output_file_is_not_replaced_without_force(option, tmp_path, ca
 def test_force_replaces_an_existing_output_file(option, tmp_path, capsys):
     target = tmp_path / ("out.json" if option == "--json" else "out.csv")
     target.write_text("keep me\n", encoding="utf-8")
-    code, _, err = _run([*BASE, option, str(target), "--force"], capsys)
+    code, _, err = run_cli([*BASE, option, str(target), "--force"], capsys)
     assert code == 0, err
     text = target.read_text(encoding="utf-8")
     assert text != "keep me\n"
@@ -199,8 +180,8 @@ def test_force_replaces_an_existing_output_file(option, tmp_path, capsys):
 def test_existing_output_file_refused_from_python_m_rank(tmp_path):
     target = tmp_path / "out.json"
     target.write_text("keep me\n", encoding="utf-8")
-    proc = _subprocess(*BASE, "--json", str(target))
-    _assert_one_line_error(proc.returncode, proc.stdout, proc.stderr)
+    proc = run_module(*BASE, "--json", str(target))
+    one_line_error(proc.returncode, proc.stdout, proc.stderr)
     assert target.read_text(encoding="utf-8") == "keep me\n"
 
 
@@ -255,15 +236,15 @@ def _argv(case: str, tmp: Path) -> list[str]:
 
 @pytest.mark.parametrize("case", sorted(BAD_INPUT))
 def test_bad_input_gives_one_line_and_exit_2(case, tmp_path, capsys):
-    code, out, err = _run(_argv(case, tmp_path), capsys)
-    _assert_one_line_error(code, out, err)
+    code, out, err = run_cli(_argv(case, tmp_path), capsys)
+    one_line_error(code, out, err)
 
 
 @pytest.mark.parametrize("case", ["unclosed parenthesis", "integrals cannot fit", "txt not text",
                                   "invalid require SMARTS", "top 0", "missing candidates file"])
 def test_bad_input_from_python_m_rank_gives_one_line_and_exit_2(case, tmp_path):
-    proc = _subprocess(*_argv(case, tmp_path))
-    _assert_one_line_error(proc.returncode, proc.stdout, proc.stderr)
+    proc = run_module(*_argv(case, tmp_path))
+    one_line_error(proc.returncode, proc.stdout, proc.stderr)
 
 
 # ---------------------------------------------------------------- bench ----
@@ -307,14 +288,14 @@ def _check_bench_output(out: str) -> None:
 
 def test_bench_prints_top_k_and_mrr(tmp_path, capsys):
     path = _known_answer_file(tmp_path, BENCH_IDS)
-    code, out, err = _run(["bench", str(path)], capsys)
+    code, out, err = run_cli(["bench", str(path)], capsys)
     assert code == 0, err
     _check_bench_output(out)
 
 
 def test_bench_from_python_m_rank(tmp_path):
     path = _known_answer_file(tmp_path, BENCH_IDS)
-    proc = _subprocess("bench", str(path))
+    proc = run_module("bench", str(path))
     assert proc.returncode == 0, proc.stderr
     _check_bench_output(proc.stdout)
 
@@ -328,10 +309,10 @@ def test_bench_from_python_m_rank(tmp_path):
 def test_malformed_bench_file_exits_2(content, tmp_path, capsys):
     path = tmp_path / "bad.tsv"
     path.write_text(content, encoding="utf-8")
-    code, out, err = _run(["bench", str(path)], capsys)
-    _assert_one_line_error(code, out, err)
+    code, out, err = run_cli(["bench", str(path)], capsys)
+    one_line_error(code, out, err)
 
 
 def test_missing_bench_file_exits_2(tmp_path, capsys):
-    code, out, err = _run(["bench", str(tmp_path / "none.tsv")], capsys)
-    _assert_one_line_error(code, out, err)
+    code, out, err = run_cli(["bench", str(tmp_path / "none.tsv")], capsys)
+    one_line_error(code, out, err)

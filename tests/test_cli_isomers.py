@@ -6,15 +6,12 @@ Expected structures are checked with RDKit as the reference library.
 
 from __future__ import annotations
 
-import subprocess
-import sys
 import time
 
 import pytest
+from clitools import run_cli, run_module
 from rdkit import Chem, RDLogger
 from rdkit.Chem import rdMolDescriptors
-
-from rank.cli import main
 
 RDLogger.DisableLog("rdApp.*")
 
@@ -30,19 +27,8 @@ def _canonical(smiles: str) -> str:
     return Chem.MolToSmiles(mol)
 
 
-def _run(argv: list[str], capsys) -> tuple[int, str, str]:
-    try:
-        code = main(argv)
-    except SystemExit as exc:  # argparse leaves through SystemExit
-        code = exc.code
-    out, err = capsys.readouterr()
-    return code, out, err
 
 
-def _subprocess(*args: str, timeout: float = 60) -> subprocess.CompletedProcess:
-    return subprocess.run(
-        [sys.executable, "-m", "rank", *args], check=False, capture_output=True, text=True, timeout=timeout
-    )
 
 
 def _lines(text: str) -> list[str]:
@@ -54,20 +40,20 @@ def _lines(text: str) -> list[str]:
 
 @pytest.mark.parametrize("extra", [["--all"], []], ids=["all", "default"])
 def test_count_of_c4h10o_is_seven(extra, capsys):
-    code, out, err = _run(["isomers", "C4H10O", "--count", *extra], capsys)
+    code, out, err = run_cli(["isomers", "C4H10O", "--count", *extra], capsys)
     assert code == 0
     assert "Traceback" not in err
     assert out.strip() == "7"  # textbook count (from memory)
 
 
 def test_count_of_c4h10o_is_seven_from_python_m_rank():
-    proc = _subprocess("isomers", "C4H10O", "--count", "--all")
+    proc = run_module("isomers", "C4H10O", "--count", "--all")
     assert proc.returncode == 0, proc.stderr
     assert proc.stdout.strip() == "7"
 
 
 def test_isomers_prints_one_smiles_per_line(capsys):
-    code, out, _ = _run(["isomers", "C4H10O", "--all"], capsys)
+    code, out, _ = run_cli(["isomers", "C4H10O", "--all"], capsys)
     assert code == 0
     lines = out.splitlines()
     assert len(lines) == 7
@@ -78,9 +64,9 @@ def test_isomers_prints_one_smiles_per_line(capsys):
 
 
 def test_isomers_from_python_m_rank_match_in_process_run(capsys):
-    proc = _subprocess("isomers", "C3H6O", "--all")
+    proc = run_module("isomers", "C3H6O", "--all")
     assert proc.returncode == 0, proc.stderr
-    code, out, _ = _run(["isomers", "C3H6O", "--all"], capsys)
+    code, out, _ = run_cli(["isomers", "C3H6O", "--all"], capsys)
     assert code == 0
     assert sorted(proc.stdout.splitlines()) == sorted(out.splitlines())
     assert len(proc.stdout.splitlines()) == 9  # textbook count (from memory)
@@ -88,7 +74,7 @@ def test_isomers_from_python_m_rank_match_in_process_run(capsys):
 
 @pytest.mark.parametrize("extra", [["--all"], []], ids=["all", "default"])
 def test_require_carbonyl_leaves_butanal_methylpropanal_butanone(extra, capsys):
-    code, out, _ = _run(["isomers", "C4H8O", "--require", "C=O", *extra], capsys)
+    code, out, _ = run_cli(["isomers", "C4H8O", "--require", "C=O", *extra], capsys)
     assert code == 0
     got = {_canonical(s) for s in _lines(out)}
     assert got == {_canonical(s) for s in C4H8O_CARBONYLS}
@@ -98,14 +84,14 @@ def test_require_carbonyl_leaves_butanal_methylpropanal_butanone(extra, capsys):
 
 def test_require_is_repeatable_and_all_patterns_must_match(capsys):
     # of the three carbonyls only 2-methylpropanal has no CH2
-    code, out, _ = _run(["isomers", "C4H8O", "--all", "--require", "C=O", "--require", "[CH2]"], capsys)
+    code, out, _ = run_cli(["isomers", "C4H8O", "--all", "--require", "C=O", "--require", "[CH2]"], capsys)
     assert code == 0
     assert {_canonical(s) for s in _lines(out)} == {_canonical("CCCC=O"), _canonical("CCC(C)=O")}
 
 
 def test_forbid_removes_matching_structures_only(capsys):
-    _, everything, _ = _run(["isomers", "C4H8O", "--all"], capsys)
-    code, out, _ = _run(["isomers", "C4H8O", "--all", "--forbid", "C=O"], capsys)
+    _, everything, _ = run_cli(["isomers", "C4H8O", "--all"], capsys)
+    code, out, _ = run_cli(["isomers", "C4H8O", "--all", "--forbid", "C=O"], capsys)
     assert code == 0
     every = {_canonical(s) for s in _lines(everything)}
     kept = {_canonical(s) for s in _lines(out)}
@@ -114,13 +100,13 @@ def test_forbid_removes_matching_structures_only(capsys):
 
 def test_forbid_is_repeatable(capsys):
     # ethers of C4H10O without a CH: diethyl ether and methyl propyl ether
-    code, out, _ = _run(["isomers", "C4H10O", "--all", "--forbid", "[OX2H1]", "--forbid", "[CH1]"], capsys)
+    code, out, _ = run_cli(["isomers", "C4H10O", "--all", "--forbid", "[OX2H1]", "--forbid", "[CH1]"], capsys)
     assert code == 0
     assert {_canonical(s) for s in _lines(out)} == {_canonical("CCOCC"), _canonical("CCCOC")}
 
 
 def test_count_with_require_counts_the_narrowed_stream(capsys):
-    code, out, _ = _run(["isomers", "C4H8O", "--all", "--count", "--require", "C=O"], capsys)
+    code, out, _ = run_cli(["isomers", "C4H8O", "--all", "--count", "--require", "C=O"], capsys)
     assert code == 0
     assert out.strip() == "3"
 
@@ -148,7 +134,7 @@ BAD = [
 
 @pytest.mark.parametrize(("argv", "why"), BAD, ids=[why for _, why in BAD])
 def test_bad_input_gives_exit_2_and_one_line_on_stderr(argv, why, capsys):
-    code, out, err = _run(argv, capsys)
+    code, out, err = run_cli(argv, capsys)
     assert code == 2
     assert out == ""
     assert len(err.splitlines()) == 1, err
@@ -166,7 +152,7 @@ def test_bad_input_gives_exit_2_and_one_line_on_stderr(argv, why, capsys):
     ids=["unknown element", "bad SMARTS", "negative ceiling"],
 )
 def test_bad_input_from_python_m_rank_gives_exit_2_and_one_line(argv):
-    proc = _subprocess(*argv)
+    proc = run_module(*argv)
     assert proc.returncode == 2
     assert proc.stdout == ""
     assert len(proc.stderr.splitlines()) == 1, proc.stderr
@@ -180,7 +166,7 @@ def test_bad_input_from_python_m_rank_gives_exit_2_and_one_line(argv):
 def test_huge_formula_is_refused_quickly_pointing_to_a_list_of_suspects(extra):
     # far beyond any run: lifting the ceiling is no advice, a list of suspects is
     start = time.monotonic()
-    proc = _subprocess("isomers", "C20H20O4", *extra)
+    proc = run_module("isomers", "C20H20O4", *extra)
     elapsed = time.monotonic() - start
     assert proc.returncode == 2
     assert proc.stdout == ""
@@ -193,7 +179,7 @@ def test_huge_formula_is_refused_quickly_pointing_to_a_list_of_suspects(extra):
 
 @pytest.mark.parametrize("extra", [[], ["--all"]], ids=["default", "all"])
 def test_formula_just_above_the_ceiling_is_refused_naming_the_ceiling_flag(extra, capsys):
-    code, out, err = _run(["isomers", "C11H16O", *extra], capsys)
+    code, out, err = run_cli(["isomers", "C11H16O", *extra], capsys)
     assert code == 2
     assert out == ""
     assert len(err.splitlines()) == 1, err
@@ -202,7 +188,7 @@ def test_formula_just_above_the_ceiling_is_refused_naming_the_ceiling_flag(extra
 
 
 def test_budget_stops_a_long_run_and_says_it_is_incomplete(capsys):
-    code, out, err = _run(["isomers", "C8H10O", "--all", "--ceiling", "0", "--budget", "0.3"], capsys)
+    code, out, err = run_cli(["isomers", "C8H10O", "--all", "--ceiling", "0", "--budget", "0.3"], capsys)
     assert code == 0
     assert "incomplete" in err
     lines = _lines(out)
@@ -212,7 +198,7 @@ def test_budget_stops_a_long_run_and_says_it_is_incomplete(capsys):
 
 
 def test_run_within_its_budget_has_no_incomplete_note(capsys):
-    code, out, err = _run(["isomers", "C4H10O", "--all", "--budget", "60"], capsys)
+    code, out, err = run_cli(["isomers", "C4H10O", "--all", "--budget", "60"], capsys)
     assert code == 0
     assert len(_lines(out)) == 7
     assert "incomplete" not in err
