@@ -25,7 +25,7 @@ RUNS = [
 _CHILD = r"""
 import json, resource, sys, time
 from rank.generate import IsomerStream
-from rank.hints import Hint
+from rank.generate import Hint
 formula, groups = sys.argv[1], json.loads(sys.argv[2])
 hints = [Hint(f"group {i}", "benchmark", fragments=tuple(s.split()), copies=c) for i, (s, c) in enumerate(groups)]
 plain = IsomerStream(formula, ceiling=0).estimate()

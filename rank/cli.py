@@ -267,7 +267,7 @@ def _run_identify(args: argparse.Namespace) -> int:
             return json_text(result)
         if option == "--csv":
             return csv_text(result)
-        from .html import report_html
+        from .report import report_html
 
         return report_html(result)
 

@@ -13,8 +13,7 @@ from importlib.resources import as_file, files
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from .html import report_html
-from .report import terminal_text, write_whole_file
+from .report import report_html, terminal_text, write_whole_file
 from .shortlist import Identifier, Shortlist
 
 if TYPE_CHECKING:

@@ -41,7 +41,7 @@ from typing import NamedTuple
 import numpy as np
 from scipy.optimize import linear_sum_assignment
 
-from .peaks import Peak, coupling_groups
+from .spectra import Peak, coupling_groups
 
 
 @dataclass(frozen=True)

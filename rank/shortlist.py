@@ -31,10 +31,10 @@ from rdkit.Chem import rdMolDescriptors
 
 from .errors import InputError
 from .formula import Formula, parse_formula
-from .generate import DEFAULT_CEILING, IsomerStream, SpaceTooLarge, compile_smarts
-from .hints import Hint, read_hints
+from .generate import DEFAULT_CEILING, Hint, IsomerStream, SpaceTooLarge, compile_smarts, read_hints
 from .match import DEFAULT_SETTINGS, Match, Settings, match
-from .peaks import (
+from .predict import Predictor, Signal
+from .spectra import (
     Dropped,
     Normalisation,
     Peak,
@@ -45,7 +45,6 @@ from .peaks import (
     normalise,
     read_peaks,
 )
-from .predict import Predictor, Signal
 from .standardize import Unsupported, standardize, supported_text
 from .tables import read_table
 

@@ -10,8 +10,8 @@ import pytest
 
 import rank
 
-MODULES = sorted(m.name for m in pkgutil.iter_modules(rank.__path__, "rank.")
-                 if m.name not in ("rank.__main__",))
+MODULES = sorted(m.name for m in pkgutil.walk_packages(rank.__path__, "rank.")
+                 if m.name not in ("rank.__main__",) and not m.name.startswith(("rank.rules", "rank.demo_data")))
 
 
 @pytest.mark.parametrize("name", MODULES)

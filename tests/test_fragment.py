@@ -1,4 +1,4 @@
-"""Group hints inside the generator (``rank/fragment.py``): contracting one copy of a group to a
+"""Group hints inside the generator (``rank/generate/fragment.py``): contracting one copy of a group to a
 vertex and expanding it again gives exactly the structures that contain the group.
 
 The reference is the generator's own full default space filtered afterwards with RDKit SMARTS written
@@ -11,9 +11,8 @@ import pytest
 from rdkit import Chem
 
 from rank.formula import parse_formula
-from rank.fragment import Fragment
-from rank.generate import IsomerStream
-from rank.hints import Hint
+from rank.generate import Hint, IsomerStream
+from rank.generate.fragment import Fragment
 
 ETHYL = "[CH3][CH2]-*"
 ISOPROPYL = "[CH3][CH1]([CH3])-*"

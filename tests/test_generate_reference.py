@@ -246,7 +246,7 @@ def _doubly_bonded_ch(mol) -> int:
 def test_double_bond_hint_splits_runs_without_losing_structures(formula, at_least):
     # The hint's claim, checked with RDKit on the full default space, must give the same set
     # as the generator's split into runs with and without a double bond on the CH carbons.
-    from rank.hints import Hint
+    from rank.generate import Hint
 
     claim = Hint("sp2 CH", "test", hydrogens=1, min_atoms=at_least, double_bond=True)
     split = IsomerStream(formula, hints=[claim])

@@ -19,9 +19,9 @@ import pytest
 from rdkit import Chem
 
 from rank.formula import parse_formula
-from rank.hints import Hint, read_hints
-from rank.peaks import parse_peak_text, read_peaks
+from rank.generate import Hint, read_hints
 from rank.shortlist import observe
+from rank.spectra import parse_peak_text, read_peaks
 from rank.tables import read_table
 
 KNOWN = Path(__file__).resolve().parent.parent / "benchmarks" / "known.tsv"
@@ -195,7 +195,7 @@ def test_every_fragment_row_has_an_independent_pattern():
 
 @pytest.mark.parametrize("hint_id", sorted(GROUP_SMARTS))
 def test_fragment_copies_agree_with_the_independent_pattern_on_the_known_set(hint_id):
-    from rank.fragment import Fragment
+    from rank.generate.fragment import Fragment
 
     fragments = [Fragment(s) for s in TABLE[hint_id]["fragments"].split()]
     patterns = [Chem.MolFromSmarts(s) for s in GROUP_SMARTS[hint_id]]

@@ -22,8 +22,8 @@ from rdkit.Chem import rdMolDescriptors
 from rank.errors import InputError
 from rank.formula import parse_formula
 from rank.generate import IsomerStream
-from rank.peaks import parse_peak_text
 from rank.shortlist import Identifier, identify
+from rank.spectra import parse_peak_text
 
 KNOWN = Path(__file__).resolve().parent.parent / "benchmarks" / "known.tsv"
 

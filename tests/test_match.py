@@ -26,8 +26,8 @@ from scipy.optimize import linear_sum_assignment
 import rank.match as match_module
 from rank.formula import parse_formula
 from rank.match import DEFAULT_SETTINGS, coupling_penalty, match, multiplicity_penalty
-from rank.peaks import parse_peak_text
 from rank.predict import predict_smiles
+from rank.spectra import parse_peak_text
 
 KNOWN = Path(__file__).resolve().parent.parent / "benchmarks" / "known.tsv"
 

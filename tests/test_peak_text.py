@@ -17,7 +17,7 @@ from hypothesis import strategies as st
 
 from rank.errors import InputError
 from rank.formula import parse_formula
-from rank.peaks import (
+from rank.spectra import (
     Peak,
     drop_labelled_peaks,
     format_peaks,
@@ -323,8 +323,7 @@ def test_a_printed_peak_list_reads_back_equal(peaks):
 
 
 def test_labels_and_labelled_drops_are_shown_in_json_terminal_and_html():
-    from rank.html import report_html
-    from rank.report import terminal_text, to_json
+    from rank.report import report_html, terminal_text, to_json
     from rank.shortlist import Identifier
 
     # ethyl acetate with its groups labelled and the CHCl3 residual labelled (Gottlieb et al. 1997, from memory)

@@ -23,7 +23,7 @@ from rdkit.Chem import rdMolDescriptors
 
 from rank.errors import InputError
 from rank.formula import parse_formula
-from rank.peaks import (
+from rank.spectra import (
     coupling_groups,
     drop_solvent_signals,
     find_solvent,

@@ -13,7 +13,7 @@ import pytest
 from rdkit import Chem
 
 from rank.errors import InputError
-from rank.perceive import CIS_TO_H, FAMILIES, NOT_ALKENE, proton_classes
+from rank.predict.perceive import CIS_TO_H, FAMILIES, NOT_ALKENE, proton_classes
 
 
 def classes(smiles: str):

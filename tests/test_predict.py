@@ -15,8 +15,8 @@ from rdkit import Chem
 
 from rank.cli import main
 from rank.errors import InputError
-from rank.peaks import coupling_groups
 from rank.predict import Predictor, Signal, Term, parse_smiles, predict_smiles, signal_table
+from rank.spectra import coupling_groups
 
 
 def by_atom(smiles: str, solvent: str = "CDCl3", field: float = 400.0) -> dict[int, list[Signal]]:

@@ -18,7 +18,7 @@ import pytest
 from rdkit import Chem
 
 from rank.errors import InputError
-from rank.html import report_html, stick_svg, structure_svg
+from rank.report import report_html, stick_svg, structure_svg
 from rank.shortlist import CAUTION, Identifier
 
 # Ethyl acetate in CDCl3: 4.12 (q, J 7.1), 2.05 (s), 1.26 (t, J 7.1), and residual CHCl3 at 7.26 ppm;

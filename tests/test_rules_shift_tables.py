@@ -11,8 +11,8 @@ from __future__ import annotations
 import pytest
 from rdkit import Chem
 
-from rank.perceive import proton_classes
 from rank.predict import Predictor, predict_smiles
+from rank.predict.perceive import proton_classes
 from rank.tables import read_table
 
 ALKYL = {
@@ -390,7 +390,7 @@ def test_coupling_kind_appears_on_its_example_and_not_on_the_near_miss(kind):
 
 
 def test_every_family_has_a_sigma():
-    from rank.perceive import FAMILIES
+    from rank.predict.perceive import FAMILIES
 
     sigma = {r["family"]: float(r["sigma"]) for r in read_table("sigma")}
     assert set(FAMILIES) <= set(sigma)
@@ -398,7 +398,7 @@ def test_every_family_has_a_sigma():
 
 
 def test_every_known_solvent_has_solvent_rows():
-    from rank.peaks import solvent_names
+    from rank.spectra import solvent_names
 
     listed = {r["solvent"] for r in read_table("solvent_shift")}
     assert set(solvent_names()) <= listed

@@ -44,7 +44,7 @@ from typing import NamedTuple
 
 from rdkit import Chem
 
-from .errors import InputError
+from ..errors import InputError
 
 FAMILIES = (
     "CH3", "CH2", "CH", "alkene", "aromatic", "heteroaromatic", "aldehyde", "formyl",

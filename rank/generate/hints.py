@@ -12,11 +12,11 @@ A hint acts at one of three levels:
   which removes whole runs of the generator before any structure is built;
 - as a group the structure must contain (``fragments``: an ethyl group, a
   monosubstituted benzene ring, ...), which the generator places as one vertex
-  (``rank/fragment.py``), so structures without it are never built;
+  (``rank/generate/fragment.py``), so structures without it are never built;
 - as a SMARTS pattern checked on each built structure before its spectrum is
   predicted.
 
->>> from rank.peaks import parse_peak_text
+>>> from rank.spectra import parse_peak_text
 >>> peaks = parse_peak_text("4.12 (q, J = 7.1 Hz, 2H), 2.05 (s, 3H), 1.26 (t, J = 7.1 Hz, 3H)").peaks
 >>> [h.name for h in read_hints(peaks, (2, 3, 3))]
 ['methyl groups', 'ethyl group']
@@ -30,10 +30,10 @@ from functools import cache
 
 from rdkit import Chem
 
-from .formula import Formula
+from ..formula import Formula
+from ..spectra import Peak
+from ..tables import read_table
 from .fragment import Fragment, FragmentType
-from .peaks import Peak
-from .tables import read_table
 
 
 @dataclass(frozen=True)

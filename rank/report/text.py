@@ -1,4 +1,4 @@
-"""Render a short list: terminal text, JSON and CSV (the HTML report is in ``rank/html.py``).
+"""Render a short list: terminal text, JSON and CSV (the HTML report is in ``rank/report/html.py``).
 
 Every number shown can be traced: a candidate's misfit is the sum of its parts,
 and each assigned signal carries the arithmetic of its predicted shift.
@@ -16,8 +16,8 @@ import os
 import secrets
 from pathlib import Path
 
-from .errors import InputError
-from .shortlist import CAUTION, Candidate, Shortlist
+from ..errors import InputError
+from ..shortlist import CAUTION, Candidate, Shortlist
 
 SHIFT_DECIMALS = 3        # ppm
 COUPLING_DECIMALS = 2     # Hz

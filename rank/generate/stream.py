@@ -3,7 +3,7 @@
 The formula is split into atom types: an element in one valence state with a
 fixed number of hydrogens, hence a fixed number of bonds to heavy atoms.  For
 every way of sharing the hydrogens among the atoms, the compiled core
-(``rank/_enum.c``) grows connected multigraphs one atom at a time and keeps a
+(``rank/generate/_enum.c``) grows connected multigraphs one atom at a time and keeps a
 prefix only when its bond matrix is the lexicographic maximum over relabellings
 (an orderly method: R. C. Read, Ann. Discrete Math. 1978, 2, 107).  No set of
 seen structures is kept, so memory stays bounded whatever the count.
@@ -28,11 +28,11 @@ from typing import NamedTuple
 
 from rdkit import Chem, RDLogger
 
+from ..errors import InputError
+from ..formula import Formula, parse_formula
+from ..tables import read_table
 from . import _enum
-from .errors import InputError
-from .formula import Formula, parse_formula
 from .fragment import Fragment, FragmentType, is_canonical_placement
-from .tables import read_table
 
 RDLogger.DisableLog("rdApp.*")
 
@@ -315,7 +315,7 @@ class IsomerStream:
         larger; 0 lifts it.  See :meth:`check_ceiling`.
     budget : float, optional
         Seconds after which the stream stops; ``complete_run`` then says False.
-    hints : iterable of rank.hints.Hint
+    hints : iterable of rank.generate.Hint
         Claims read from a spectrum; a hydrogen distribution that cannot satisfy
         one is skipped, a structure that misses a hint's SMARTS is dropped, and
         both are counted in ``hinted`` (hint name -> structures, estimated for

@@ -16,8 +16,8 @@ from html import escape
 from rdkit import Chem
 from rdkit.Chem.Draw import rdMolDraw2D
 
-from .report import assignment_rows
-from .shortlist import CAUTION, Candidate, Shortlist
+from ..shortlist import CAUTION, Candidate, Shortlist
+from .text import assignment_rows
 
 PALETTE = ("#1f77b4", "#d62728", "#2ca02c", "#9467bd", "#ff7f0e", "#17becf", "#8c564b",
            "#e377c2", "#bcbd22", "#7f7f7f", "#393b79", "#ad494a", "#637939", "#843c39")

@@ -46,10 +46,10 @@ from typing import NamedTuple
 
 from rdkit import Chem, RDLogger
 
-from .errors import InputError
-from .peaks import find_solvent
+from ..errors import InputError
+from ..spectra import find_solvent
+from ..tables import read_table
 from .perceive import EXCHANGEABLE, SP3_FAMILIES, Graph, Perception, _Draft, perceive
-from .tables import read_table
 
 RDLogger.DisableLog("rdApp.*")
 
@@ -327,7 +327,7 @@ class Predictor:
         Returns
         -------
         list of Signal
-            One per proton class (``rank.perceive``); ``partners`` index this list.
+            One per proton class (``rank.predict.perceive``); ``partners`` index this list.
         """
         return _Run(perceive(mol), self._solvent, float(self.field_mhz)).signals()
 
@@ -355,7 +355,7 @@ def parse_smiles(smiles: str, notes: list[str] | None = None) -> Chem.Mol:
     other than C, H, N, O, S, P, F, Cl, Br and I, radicals and salts without carbon
     are refused.
     """
-    from .standardize import standardize
+    from ..standardize import standardize
 
     mol = Chem.MolFromSmiles(smiles) if isinstance(smiles, str) and smiles.strip() else None
     if mol is None or mol.GetNumAtoms() == 0:

@@ -1,0 +1,19 @@
+"""Observe: read what the chemist has (peak text, tables, JCAMP-DX peak tables), drop solvent
+signals, and turn integrals into H counts.
+
+>>> spectrum = read_peaks("1H NMR (400 MHz, CDCl3) δ 4.12 (q, J = 7.1 Hz, 2H), 7.26 (s, CHCl3)")
+>>> [p.shift for p in spectrum.peaks], spectrum.solvent
+([4.12, 7.26], 'CDCl3')
+"""
+
+from .files import read_peaks
+from .integrals import Normalisation, normalise, with_counts
+from .peaks import Dropped, Peak, Spectrum, coupling_groups, format_peaks, normalise_multiplicity
+from .solvents import Solvent, drop_labelled_peaks, drop_solvent_signals, find_solvent, solvent_names
+from .text import parse_peak_text
+
+__all__ = [
+    "Dropped", "Normalisation", "Peak", "Solvent", "Spectrum", "coupling_groups", "drop_labelled_peaks",
+    "drop_solvent_signals", "find_solvent", "format_peaks", "normalise", "normalise_multiplicity",
+    "parse_peak_text", "read_peaks", "solvent_names", "with_counts",
+]

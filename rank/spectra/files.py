@@ -1,0 +1,226 @@
+"""Peak list files: CSV, TSV, JSON, JCAMP-DX peak tables, and text files of inline lists.
+
+:func:`read_peaks` takes a file path (by its suffix) or inline text.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import re
+import warnings
+from pathlib import Path
+
+from ..errors import InputError
+from .peaks import DASH, NUMBER, Peak, Spectrum, make_peak, number
+from .solvents import find_solvent
+from .text import parse_peak_text
+
+
+def _peak_from_fields(shift: str, integral: object, mult: object, j: object, counts_h: bool = False,
+                      label: object = None) -> Peak:
+    """A peak from a file's fields; ``counts_h``: the integral column holds H counts (n_h, nH)."""
+    text = str(shift).strip()
+    m = re.fullmatch(rf"({NUMBER})(?:{DASH}({NUMBER}))?", text)
+    if not m:
+        raise InputError(f"shift {text!r} is not a number or a range like 7.35-7.20")
+    value = None if _blank(integral) else integral
+    written = str(value).strip() if value is not None else ""
+    if isinstance(value, str):
+        value = value.strip().rstrip("Hh").strip() or None
+    try:
+        value = None if value is None else float(value)
+    except ValueError:
+        raise InputError(f"integral {integral!r} is not a number") from None
+    counted = value is not None and (counts_h or written.upper().endswith("H")) and float(value).is_integer() \
+        and "." not in written
+    mult_text = None if _blank(mult) else str(mult)
+    js: tuple[float, ...] = ()
+    if not _blank(j):
+        js = tuple(number(x) for x in re.findall(NUMBER, str(j)))
+    return make_peak(number(m.group(1)), number(m.group(2)) if m.group(2) else None, value, mult_text, js,
+                      "" if _blank(label) else str(label).strip(), counted)
+
+
+def _blank(value: object) -> bool:
+    return value is None or (isinstance(value, float) and math.isnan(value)) or str(value).strip() == ""
+
+
+_COLUMNS = {
+    "shift": ("shift", "delta", "ppm", "δ", "shift_ppm", "range", "position"),
+    "integral": ("integral", "n_h", "nh", "h", "integration", "area", "intensity"),
+    "multiplicity": ("multiplicity", "mult", "pattern"),
+    "j": ("j", "j_hz", "coupling", "couplings"),
+    "label": ("label", "assignment", "assign"),
+}
+
+
+_H_COUNT_COLUMNS = ("n_h", "nh", "h")
+
+
+def _pick(columns: list[str], role: str) -> str | None:
+    lowered = {c.strip().lower(): c for c in columns}
+    for name in _COLUMNS[role]:
+        if name in lowered:
+            return lowered[name]
+    return None
+
+
+def _read_table_file(path: Path, sep: str) -> Spectrum:
+    import pandas as pd
+
+    try:
+        frame = pd.read_csv(path, sep=sep, dtype=str, comment="#", skipinitialspace=True)
+    except (OSError, ValueError, UnicodeDecodeError, pd.errors.ParserError) as exc:
+        raise InputError(f"cannot read {path} as a table: {exc}".splitlines()[0]) from None
+    cols = list(frame.columns)
+    shift = _pick(cols, "shift")
+    if shift is None:
+        raise InputError(f"{path}: no shift column; name one of {', '.join(_COLUMNS['shift'])}")
+    roles = {r: _pick(cols, r) for r in ("integral", "multiplicity", "j", "label")}
+    counts_h = roles["integral"] is not None and roles["integral"].strip().lower() in _H_COUNT_COLUMNS
+    peaks = tuple(
+        _peak_from_fields(
+            row[shift],
+            row[roles["integral"]] if roles["integral"] else None,
+            row[roles["multiplicity"]] if roles["multiplicity"] else None,
+            row[roles["j"]] if roles["j"] else None,
+            counts_h,
+            row[roles["label"]] if roles["label"] else None,
+        )
+        for _, row in frame.iterrows()
+        if isinstance(row[shift], str) and row[shift].strip()
+    )
+    return Spectrum(peaks)
+
+
+def _read_json(path: Path) -> Spectrum:
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError) as exc:
+        raise InputError(f"cannot read {path} as JSON: {exc}") from None
+    items = data.get("peaks") if isinstance(data, dict) else data
+    if not isinstance(items, list):
+        raise InputError(f"{path}: expected a list of peaks or an object with a 'peaks' list")
+    peaks = []
+    for item in items:
+        if not isinstance(item, dict) or not any(k in item for k in ("shift", "range")):
+            raise InputError(f"{path}: each peak needs a 'shift' (or 'range')")
+        shift = item.get("shift", item.get("range"))
+        if isinstance(shift, list | tuple):
+            shift = "-".join(str(x) for x in shift)
+        peaks.append(_peak_from_fields(str(shift), item.get("integral", item.get("n_h")),
+                                       item.get("multiplicity"), item.get("j"), "n_h" in item,
+                                       item.get("label", item.get("assignment"))))
+    field = data.get("field_mhz") if isinstance(data, dict) else None
+    try:
+        field = float(field) if field else None
+    except (TypeError, ValueError):
+        raise InputError(f"{path}: field_mhz {field!r} is not a number of MHz") from None
+    solvent = data.get("solvent") if isinstance(data, dict) else None
+    return Spectrum(tuple(peaks), field, find_solvent(solvent).id if solvent else None)
+
+
+def _find_label(node: object, label: str) -> list[str] | None:
+    if isinstance(node, dict):
+        if label in node:
+            return node[label]
+        for value in node.values():
+            found = _find_label(value, label)
+            if found is not None:
+                return found
+    elif isinstance(node, list):
+        for value in node:
+            found = _find_label(value, label)
+            if found is not None:
+                return found
+    return None
+
+
+def _read_jcamp(path: Path) -> Spectrum:
+    """JCAMP-DX peak table: ##PEAK TABLE=(XY..XY) or (XYW..XYW), with optional
+    ##PEAK ASSIGNMENTS=(XYMA) for multiplicities (IUPAC JCAMP-DX for NMR,
+    A. N. Davies, P. Lampen, Appl. Spectrosc. 1993, 47, 1093)."""
+    import nmrglue
+
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            dic = nmrglue.jcampdx.read(str(path))[0]
+    except (OSError, ValueError, IndexError, KeyError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read {path} as JCAMP-DX: {exc}".splitlines()[0]) from None
+    table = _find_label(dic, "PEAKTABLE")
+    if not table:
+        raise InputError(f"{path}: no ##PEAK TABLE in this JCAMP-DX file")
+    text = table[0]
+    form, _, rows = text.partition("\n")
+    xunits = (_find_label(dic, "XUNITS") or ["PPM"])[0].upper()
+    freq = _find_label(dic, ".OBSERVEFREQUENCY")
+    field = float(freq[0]) if freq else None
+    if "HZ" in xunits and not field:
+        raise InputError(f"{path}: shifts in Hz need ##.OBSERVE FREQUENCY")
+    assignments = _find_label(dic, "PEAKASSIGNMENTS")
+    mults = _assigned_multiplicities(assignments[0]) if assignments else {}
+    peaks = []
+    for line in rows.splitlines():
+        numbers = re.findall(NUMBER, line)
+        for i in range(0, len(numbers) - 1, 3 if "W" in form.upper() else 2):
+            x, y = number(numbers[i]), number(numbers[i + 1])
+            shift = x / field if "HZ" in xunits else x
+            peaks.append(_peak_from_fields(f"{shift:.4f}", y, mults.get(round(x, 3)), None))
+    solvent = _find_label(dic, ".SOLVENTNAME")
+    return Spectrum(tuple(peaks), field, find_solvent(solvent[0]).id if solvent else None)
+
+
+def _assigned_multiplicities(text: str) -> dict[float, str]:
+    """Multiplicities by X from ##PEAK ASSIGNMENTS=(XYMA) or (XYMWA).
+
+    Each entry is ``(X, Y, M, <A>)``: M the multiplicity, A the assignment in
+    angle brackets; Y, W and M may be left empty, and an M written in angle
+    brackets is read too.  (XYA) and (XYWA) carry no multiplicity (JCAMP-DX,
+    R. S. McDonald, P. A. Wilks, Appl. Spectrosc. 1988, 42, 151; for NMR,
+    Davies, Lampen 1993).
+    """
+    form, _, rows = text.partition("\n")
+    names = re.sub(r"[^A-Z]", "", form.upper())
+    if "M" not in names:
+        return {}
+    where = names.index("M")
+    found = {}
+    for entry in re.finditer(r"\(((?:[^()<]|<[^>]*>)*)\)", rows):
+        values = [v.strip().strip("<>").strip() for v in re.split(r",(?![^<]*>)", entry.group(1))]
+        if len(values) > where and values[where] and re.fullmatch(NUMBER, values[0]):
+            found[round(number(values[0]), 3)] = values[where]
+    return found
+
+
+def read_peaks(source: str) -> Spectrum:
+    """Read peaks from a file (by its suffix) or from inline text.
+
+    Raises InputError for unreadable files, unknown formats and malformed text.
+    """
+    text = source.strip()
+    suffix = Path(text).suffix.lower() if "\n" not in text and len(text) < 4096 else ""
+    if suffix in (".csv", ".tsv", ".txt", ".json", ".jdx", ".dx", ".jcamp"):
+        path = Path(text)
+        if not path.is_file():
+            raise InputError(f"peak file {text!r} not found")
+        if suffix == ".json":
+            spectrum = _read_json(path)
+        elif suffix in (".jdx", ".dx", ".jcamp"):
+            spectrum = _read_jcamp(path)
+        elif suffix == ".txt":
+            try:
+                text_in_file = path.read_text(encoding="utf-8")
+            except (OSError, UnicodeDecodeError) as exc:
+                raise InputError(f"cannot read {path} as text: {exc}".splitlines()[0]) from None
+            spectrum = parse_peak_text(text_in_file)
+        else:
+            spectrum = _read_table_file(path, "," if suffix == ".csv" else "\t")
+    else:
+        spectrum = parse_peak_text(text)
+    if not spectrum.peaks:
+        raise InputError("the peak list is empty")
+    return spectrum
+
+

@@ -1,0 +1,186 @@
+"""Observed peaks: the values every reader produces and every later stage uses.
+
+A :class:`Peak` is one observed signal (shift or range, integral, multiplicity,
+J, the chemist's label); a :class:`Spectrum` is a list of them with what the
+header or file says about the experiment.
+
+>>> p = make_peak(4.12, None, 2.0, "q", (7.1,), "OCH2", True)
+>>> p.caption, format_peaks([p])
+('4.12 (q)', '4.12 (q, J = 7.1 Hz, 2H, OCH2)')
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+from ..errors import InputError
+
+SHIFT_RANGE = (-1.0, 16.0)
+_SIMPLE = {"s": 0, "d": 1, "t": 2, "q": 3, "quint": 4, "sext": 5, "sept": 6}
+_ALIASES = {
+    "p": "quint", "quin": "quint", "pent": "quint", "pentet": "quint", "quintet": "quint",
+    "sextet": "sext", "hept": "sept", "septet": "sept", "heptet": "sept", "sep": "sept",
+    "singlet": "s", "doublet": "d", "triplet": "t", "quartet": "q", "multiplet": "m",
+    "bs": "br s", "brs": "br s", "br. s": "br s", "br.s": "br s", "bs.": "br s", "br": "br",
+    "br.": "br", "broad": "br", "br m": "m", "brm": "m", "bd": "br d", "brd": "br d", "bt": "br t",
+    "brt": "br t", "dm": "m", "tm": "m", "qm": "m", "abq": "m", "ab q": "m", "ab": "m", "aa'bb'": "m",
+    "aa'xx'": "m", "abx": "m",
+}
+# "app t", "app. sext", "apparent q", "pseudo-t", "ps t": read as the pattern they look like
+_APPARENT = re.compile(r"^(?:apparent|app\.?|pseudo-?|ps\.?)\s*(?=\w)")
+_COMPOUND = re.compile(r"^[dtq]{2,4}$")
+# a number as written in a peak list, and the dash of a range
+NUMBER = r"[-−]?\d+(?:\.\d+)?"
+DASH = r"\s*[-–—]\s*"
+
+
+@dataclass(frozen=True)
+class Peak:
+    """One observed signal.
+
+    Attributes
+    ----------
+    shift : centre in ppm (the middle of a range).
+    low, high : the range in ppm (equal for a single value).
+    integral : as given, relative or absolute; None when not given.
+    multiplicity : normalised text: s, d, t, q, quint, sext, sept, m, br s, br, dd, dt, ...;
+        None when the list does not say (unknown, which is not ``m``).
+    j : coupling constants in Hz, as given.
+    label : the chemist's assignment written with the peak (``OCH3``, ``H-2, H-6``), or "".
+    counted : the integral was written as a whole number of H (``3H``): an absolute count.
+    """
+
+    shift: float
+    low: float
+    high: float
+    integral: float | None = None
+    multiplicity: str | None = None
+    j: tuple[float, ...] = ()
+    label: str = ""
+    counted: bool = False
+
+    @property
+    def broad(self) -> bool:
+        return self.multiplicity is not None and self.multiplicity.startswith("br")
+
+    @property
+    def caption(self) -> str:
+        """Short text for the peak: its shift or range and multiplicity, e.g. ``7.35–7.20 (m)``."""
+        where = f"{self.high:.2f}–{self.low:.2f}" if self.high - self.low > 1e-9 else f"{self.shift:.2f}"
+        return f"{where} ({self.multiplicity})" if self.multiplicity else where
+
+
+@dataclass(frozen=True)
+class Spectrum:
+    """A peak list with what its header or file says about the experiment.
+
+    ``nucleus`` is "1H" or "13C" when a header names it, else None.
+    """
+
+    peaks: tuple[Peak, ...]
+    field_mhz: float | None = None
+    solvent: str | None = None
+    nucleus: str | None = None
+
+
+@dataclass(frozen=True)
+class Dropped:
+    """A peak taken out as solvent, water or reference, with the reason."""
+
+    peak: Peak
+    reason: str
+
+
+
+def normalise_multiplicity(text: str) -> str:
+    """Map the ways papers write multiplicities to one spelling.
+
+    >>> [normalise_multiplicity(t) for t in ("app sext", "br. s", "hept", "p", "dd")]
+    ['sext', 'br s', 'sept', 'quint', 'dd']
+    """
+    t = " ".join(text.strip().lower().replace("(", " ").replace(")", " ").split())
+    t = _APPARENT.sub("", t)
+    t = re.sub(r"^(?:br\.|broad)\s*", "br ", t).strip()
+    t = _ALIASES.get(t, t)
+    if t in _SIMPLE or t in ("m", "br s", "br") or _COMPOUND.match(t):
+        return t
+    if t.startswith("br "):
+        inner = _ALIASES.get(t[3:], t[3:])
+        if inner in _SIMPLE or inner == "m" or _COMPOUND.match(inner):
+            return "br s" if inner == "s" else inner
+    raise InputError(f"multiplicity {text!r} not understood; use s, d, t, q, quint, sext, sept, m, br s, dd, dt, ...")
+
+
+def coupling_groups(multiplicity: str | None) -> tuple[int, ...] | None:
+    """Sizes of the equivalent partner groups a first-order pattern implies.
+
+    ``"dt"`` gives (1, 2); ``"s"`` gives (); ``"m"``, ``"br"`` and an unreported
+    multiplicity (None) give None (unknown).
+    """
+    if multiplicity is None:
+        return None
+    if multiplicity in _SIMPLE:
+        n = _SIMPLE[multiplicity]
+        return (n,) if n else ()
+    if multiplicity == "br s":
+        return ()
+    if _COMPOUND.match(multiplicity):
+        return tuple(_SIMPLE[c] for c in multiplicity)
+    return None
+
+
+def format_peaks(peaks) -> str:
+    """The peaks in the paper style :func:`parse_peak_text` reads back.
+
+    >>> from rank.spectra.text import parse_peak_text
+    >>> format_peaks(parse_peak_text("4.12 (q, J = 7.1 Hz, 2H, OCH2), 7.35-7.20 (m, 5H), 2.14 (3H)").peaks)
+    '4.12 (q, J = 7.1 Hz, 2H, OCH2), 7.35–7.20 (m, 5H), 2.14 (3H)'
+    """
+    return ", ".join(_format_peak(p) for p in peaks)
+
+
+def _format_peak(p: Peak) -> str:
+    where = f"{_ppm_text(p.high)}–{_ppm_text(p.low)}" if p.high > p.low else _ppm_text(p.shift)
+    inside = []
+    if p.multiplicity:
+        inside.append(p.multiplicity)
+    if p.j:
+        inside.append("J = " + ", ".join(f"{j:g}" for j in p.j) + " Hz")
+    if p.integral is not None:
+        inside.append(f"{int(p.integral)}H" if p.counted else f"{_relative_text(p.integral)}H")
+    if p.label:
+        inside.append(p.label)
+    return f"{where} ({', '.join(inside)})" if inside else where
+
+
+def _ppm_text(value: float) -> str:
+    return f"{value:.2f}" if round(value, 2) == value else f"{value:.4f}".rstrip("0")
+
+
+def _relative_text(value: float) -> str:
+    """A relative integral always with a decimal point, so that it reads back as relative."""
+    text = f"{value:.6f}".rstrip("0")
+    return text + "0" if text.endswith(".") else text
+
+
+def number(text: str) -> float:
+    return float(text.replace("−", "-"))
+
+
+def make_peak(a: float, b: float | None, integral: float | None, mult: str | None, j: tuple[float, ...],
+               label: str = "", counted: bool = False) -> Peak:
+    low, high = (a, a) if b is None else (min(a, b), max(a, b))
+    for value in (low, high):
+        if not SHIFT_RANGE[0] <= value <= SHIFT_RANGE[1]:
+            raise InputError(f"shift {value:g} ppm is outside {SHIFT_RANGE[0]:g} to {SHIFT_RANGE[1]:g} ppm")
+    if integral is not None and not integral > 0:
+        raise InputError(f"peak at {(low + high) / 2:g} ppm: integral {integral:g} must be positive")
+    if any(x <= 0 or x > 40 for x in j):
+        raise InputError(f"peak at {(low + high) / 2:g} ppm: J values must lie between 0 and 40 Hz")
+    multiplicity = None if mult is None else normalise_multiplicity(mult)
+    return Peak(round((low + high) / 2, 4), low, high, integral, multiplicity, j, label, counted)
+
+
+# A header names the nucleus and the experiment; its parentheses hold field, solvent and temperature:
+#   1H NMR (400 MHz, CDCl3) δ   |  1H-NMR (CDCl3, 400 MHz): δ (ppm) =  |  δH (400 MHz; CDCl3)  |  ¹H NMR δ
