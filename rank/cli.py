@@ -247,19 +247,15 @@ def _run_identify(args: argparse.Namespace) -> int:
     from .report import csv_text, json_text, terminal_text, write_whole_file
     from .shortlist import Identifier
 
-    if args.top == 0:
-        raise InputError("--top must be at least 1")
-    workers = _workers(args)
-    if args.field is not None and not 20 <= args.field <= 1500:
-        raise InputError("--field must be a spectrometer frequency in MHz, between 20 and 1500")
-    outputs = _check_outputs(args, {"--json": ("json", "shortlist.json"), "--csv": ("csv", "shortlist.csv"),
-                                    "--report": ("report", "report.html")})
     identifier = Identifier(
         top=args.top, solvent=args.solvent, field_mhz=args.field, require=args.require, forbid=args.forbid,
-        use_hints=not args.no_hints, workers=workers, budget=args.budget,
+        use_hints=not args.no_hints, workers=_workers(args), budget=args.budget,
         ceiling=DEFAULT_CEILING if args.ceiling is None else args.ceiling,
         keep_all_peaks=args.keep_all_peaks, progress=not args.quiet and sys.stderr.isatty(),
     )
+    identifier.check_options()
+    outputs = _check_outputs(args, {"--json": ("json", "shortlist.json"), "--csv": ("csv", "shortlist.csv"),
+                                    "--report": ("report", "report.html")})
     result = identifier.identify(args.formula, args.peaks, args.candidates)
 
     def render(option: str) -> str:

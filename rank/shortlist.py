@@ -35,12 +35,15 @@ from .generate import DEFAULT_CEILING, Hint, IsomerStream, SpaceTooLarge, compil
 from .match import DEFAULT_SETTINGS, Match, Settings, match
 from .predict import Predictor, Signal
 from .spectra import (
+    DEFAULT_FIELD_MHZ,
+    DEFAULT_SOLVENT,
     Dropped,
     Normalisation,
     Peak,
     Spectrum,
     drop_labelled_peaks,
     drop_solvent_signals,
+    exchangeable_bound,
     find_solvent,
     normalise,
     read_peaks,
@@ -54,6 +57,8 @@ CAUTION = (
     "and handle the unknown as hazardous."
 )
 _CHUNK = 256
+FIELD_RANGE_MHZ = (20.0, 1500.0)
+"""Spectrometer frequencies accepted (MHz): from low-field benchtop instruments to beyond any built."""
 
 
 @dataclass(frozen=True)
@@ -171,7 +176,7 @@ def observe(formula: Formula, spectrum: Spectrum, solvent: str | None = None,
 
     Raises InputError when nothing is left or the integrals cannot fit the formula.
     """
-    chosen = find_solvent(solvent or spectrum.solvent or "CDCl3")
+    chosen = find_solvent(solvent or spectrum.solvent or DEFAULT_SOLVENT)
     peaks, labelled = drop_labelled_peaks(spectrum.peaks)
     if keep_all_peaks:
         dropped = labelled
@@ -183,9 +188,9 @@ def observe(formula: Formula, spectrum: Spectrum, solvent: str | None = None,
     hydrogens = formula["H"]
     if hydrogens == 0:
         raise InputError(f"{formula.hill} has no hydrogen; a 1H spectrum cannot rank its isomers")
-    labile = min(hydrogens, 2 * formula["N"] + formula["O"] + formula["S"])
+    labile = exchangeable_bound(formula["N"], formula["O"], formula["S"], hydrogens)
     norms = normalise(peaks, hydrogens, labile)
-    field_used = field_mhz or spectrum.field_mhz or 400.0
+    field_used = field_mhz or spectrum.field_mhz or DEFAULT_FIELD_MHZ
     return Observation(peaks, tuple(norms), chosen.id, field_used, chosen.exchange), dropped
 
 
@@ -456,6 +461,20 @@ class Identifier:
     settings: Settings = field(default_factory=Settings)
     track: str | None = None
 
+    def check_options(self) -> None:
+        """Raise InputError for an option no run can use; the one place options are validated."""
+        if self.top < 1:
+            raise InputError("--top must be at least 1")
+        if self.workers < 1:
+            raise InputError("--workers must be at least 1")
+        if self.budget is not None and self.budget <= 0:
+            raise InputError("the time budget must be a positive number of seconds")
+        low, high = FIELD_RANGE_MHZ
+        if self.field_mhz is not None and not low <= self.field_mhz <= high:
+            raise InputError(f"--field must be a spectrometer frequency in MHz, between {low:g} and {high:g}")
+        if self.solvent is not None:
+            find_solvent(self.solvent)
+
     def identify(self, formula: str, peaks: str | Spectrum, candidates: str | None = None) -> Shortlist:
         """Run the identification; ``peaks`` is inline text, a file path or a Spectrum.
 
@@ -467,12 +486,7 @@ class Identifier:
             structure left to rank, naming what left none (a pattern, the hints,
             the filters, or a candidates file without the formula).
         """
-        if self.top < 1:
-            raise InputError("--top must be at least 1")
-        if self.workers < 1:
-            raise InputError("--workers must be at least 1")
-        if self.budget is not None and self.budget <= 0:
-            raise InputError("the time budget must be a positive number of seconds")
+        self.check_options()
         parsed = parse_formula(formula)
         spectrum = peaks if isinstance(peaks, Spectrum) else read_peaks(peaks)
         observation, dropped = observe(parsed, spectrum, self.solvent, self.field_mhz, self.keep_all_peaks)

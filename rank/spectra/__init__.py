@@ -7,13 +7,46 @@ signals, and turn integrals into H counts.
 """
 
 from .files import read_peaks
-from .integrals import Normalisation, normalise, with_counts
-from .peaks import Dropped, Peak, Spectrum, coupling_groups, format_peaks, normalise_multiplicity
-from .solvents import Solvent, drop_labelled_peaks, drop_solvent_signals, find_solvent, solvent_names
+from .integrals import Normalisation, exchangeable_bound, normalise, with_counts
+from .peaks import (
+    DEFAULT_FIELD_MHZ,
+    Dropped,
+    Peak,
+    Spectrum,
+    coupling_groups,
+    format_peaks,
+    normalise_multiplicity,
+    observation_rule,
+)
+from .solvents import (
+    DEFAULT_SOLVENT,
+    Solvent,
+    drop_labelled_peaks,
+    drop_solvent_signals,
+    find_solvent,
+    solvent_names,
+)
 from .text import parse_peak_text
 
 __all__ = [
-    "Dropped", "Normalisation", "Peak", "Solvent", "Spectrum", "coupling_groups", "drop_labelled_peaks",
-    "drop_solvent_signals", "find_solvent", "format_peaks", "normalise", "normalise_multiplicity",
-    "parse_peak_text", "read_peaks", "solvent_names", "with_counts",
+    "DEFAULT_FIELD_MHZ",
+    "DEFAULT_SOLVENT",
+    "Dropped",
+    "Normalisation",
+    "Peak",
+    "Solvent",
+    "Spectrum",
+    "coupling_groups",
+    "drop_labelled_peaks",
+    "drop_solvent_signals",
+    "exchangeable_bound",
+    "find_solvent",
+    "format_peaks",
+    "normalise",
+    "normalise_multiplicity",
+    "observation_rule",
+    "parse_peak_text",
+    "read_peaks",
+    "solvent_names",
+    "with_counts",
 ]

@@ -12,7 +12,7 @@ from dataclasses import dataclass, replace
 from fractions import Fraction
 
 from ..errors import InputError
-from .peaks import Peak
+from .peaks import Peak, observation_rule
 
 
 @dataclass(frozen=True)
@@ -42,7 +42,7 @@ class Normalisation:
 
 
 
-def normalise(peaks: tuple[Peak, ...], hydrogens: int, max_missing: int, keep: int = 3) -> list[Normalisation]:
+def normalise(peaks: tuple[Peak, ...], hydrogens: int, max_missing: int, keep: int | None = None) -> list[Normalisation]:
     """Whole-number H counts for the peaks.
 
     H counts written as whole numbers (``3H``) on every peak are absolute: they
@@ -51,7 +51,8 @@ def normalise(peaks: tuple[Peak, ...], hydrogens: int, max_missing: int, keep: i
     integrals (27.1, 40.5, 26.9; or any list not written as whole H counts) are
     scaled so that they sum to the formula's hydrogens, or to fewer when up to
     ``max_missing`` exchangeable H may be unobserved; every peak holds at least
-    one H.  The plausible choices are returned best first (smallest rounding
+    one H (the rounding tolerance and how many readings are kept are in
+    ``rules/observe.tsv``).  The plausible choices are returned best first (smallest rounding
     residual, fewest missing H), so that the matching can decide between them.
 
     Raises
@@ -85,7 +86,7 @@ def normalise(peaks: tuple[Peak, ...], hydrogens: int, max_missing: int, keep: i
         if min(counts) < 1:
             continue
         error = max(abs(r - c) / max(c, 1) ** 0.5 for r, c in zip(raw, counts))
-        if error <= 0.35:
+        if error <= observation_rule("integral_rounding_tolerance"):
             options.append(Normalisation(tuple(counts), hydrogens - target, scale, error))
     options.sort(key=lambda o: (round(o.error, 1), o.missing))
     if not options:
@@ -94,7 +95,7 @@ def normalise(peaks: tuple[Peak, ...], hydrogens: int, max_missing: int, keep: i
             f"integrals {', '.join(f'{g:g}' for g in given)} (about {ratio}) cannot be scaled to "
             f"whole numbers summing to the formula's {hydrogens} H"
         )
-    return options[:keep]
+    return options[:int(observation_rule("readings_kept")) if keep is None else keep]
 
 
 def _as_written(peaks: tuple[Peak, ...], hydrogens: int, max_missing: int) -> Normalisation:
@@ -122,3 +123,14 @@ def with_counts(peaks: tuple[Peak, ...], norm: Normalisation) -> tuple[Peak, ...
     """The peaks with their integrals replaced by the normalised H counts."""
     return tuple(replace(p, integral=float(c)) for p, c in zip(peaks, norm.counts))
 
+
+
+def exchangeable_bound(nitrogens: int, oxygens: int, sulfurs: int, hydrogens: int) -> int:
+    """How many of a formula's H can be exchangeable H a list leaves unreported (``rules/observe.tsv``).
+
+    >>> exchangeable_bound(3, 0, 1, 5)
+    5
+    """
+    bound = (nitrogens * observation_rule("labile_h_per_n") + oxygens * observation_rule("labile_h_per_o")
+             + sulfurs * observation_rule("labile_h_per_s"))
+    return min(hydrogens, int(bound))

@@ -13,8 +13,10 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
+from functools import cache
 
 from ..errors import InputError
+from ..tables import read_table
 
 SHIFT_RANGE = (-1.0, 16.0)
 _SIMPLE = {"s": 0, "d": 1, "t": 2, "q": 3, "quint": 4, "sext": 5, "sept": 6}
@@ -30,6 +32,20 @@ _ALIASES = {
 # "app t", "app. sext", "apparent q", "pseudo-t", "ps t": read as the pattern they look like
 _APPARENT = re.compile(r"^(?:apparent|app\.?|pseudo-?|ps\.?)\s*(?=\w)")
 _COMPOUND = re.compile(r"^[dtq]{2,4}$")
+DEFAULT_FIELD_MHZ = 400.0
+"""The spectrometer frequency assumed when neither the user nor the peak list gives one (MHz)."""
+
+
+@cache
+def observation_rule(name: str) -> float:
+    """A rule of thumb for reading peak lists, from ``rules/observe.tsv`` (KeyError if absent).
+
+    >>> observation_rule("tms_tolerance")
+    0.02
+    """
+    return {r["id"]: float(r["value"]) for r in read_table("observe")}[name]
+
+
 # a number as written in a peak list, and the dash of a range
 NUMBER = r"[-−]?\d+(?:\.\d+)?"
 DASH = r"\s*[-–—]\s*"

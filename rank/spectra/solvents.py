@@ -15,7 +15,10 @@ from functools import cache
 
 from ..errors import InputError
 from ..tables import read_table
-from .peaks import Dropped, Peak
+from .peaks import Dropped, Peak, observation_rule
+
+DEFAULT_SOLVENT = "CDCl3"
+"""The solvent assumed when neither the user nor the peak list names one."""
 
 
 @dataclass(frozen=True)
@@ -82,11 +85,11 @@ def drop_solvent_signals(peaks: tuple[Peak, ...], solvent: Solvent) -> tuple[tup
 
 
 def _solvent_reason(p: Peak, solvent: Solvent) -> str | None:
-    if p.high - p.low >= 0.05:
+    if p.high - p.low >= observation_rule("single_peak_width"):
         return None
     unreported = p.multiplicity is None and p.integral is None
     singlet = p.multiplicity in ("s", "br s", "br") or unreported
-    if (singlet or p.multiplicity == "m") and abs(p.shift - solvent.tms) <= 0.02:
+    if (singlet or p.multiplicity == "m") and abs(p.shift - solvent.tms) <= observation_rule("tms_tolerance"):
         return "TMS reference"
     near_residual = abs(p.shift - solvent.residual) <= solvent.tolerance_residual
     if near_residual and (singlet or p.multiplicity == solvent.residual_multiplicity):
