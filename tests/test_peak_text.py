@@ -336,3 +336,45 @@ def test_labels_and_labelled_drops_are_shown_in_json_terminal_and_html():
     assert {row["observed_label"] for row in doc["candidates"][0]["assignment"]} == {"OCH2", "COCH3", "CH3"}
     assert "[OCH2]" in terminal_text(result) and "labelled 'CHCl3'" in terminal_text(result)
     assert "COCH3" in report_html(result)
+
+
+# ------------------------------------------------------- rules/observe.tsv ----
+
+
+def test_tms_window_drops_a_singlet_at_zero_and_keeps_one_just_outside():
+    from rank.spectra import drop_solvent_signals, find_solvent, observation_rule
+
+    assert observation_rule("tms_tolerance") == 0.02  # common practice
+    kept, dropped = drop_solvent_signals(parse_peak_text("0.01 (s), 0.05 (s, 9H)").peaks, find_solvent("CDCl3"))
+    assert [p.shift for p in kept] == [0.05] and dropped[0].reason == "TMS reference"
+
+
+def test_a_narrow_range_counts_as_one_line_and_a_wide_one_never_as_solvent():
+    from rank.spectra import drop_solvent_signals, find_solvent
+
+    # CHCl3 7.26 (Gottlieb et al. 1997, from memory) written as a 0.04 ppm range, then as a 0.10 ppm range
+    kept, _ = drop_solvent_signals(parse_peak_text("7.28-7.24 (s)").peaks, find_solvent("CDCl3"))
+    assert kept == ()
+    kept, _ = drop_solvent_signals(parse_peak_text("7.31-7.21 (s)").peaks, find_solvent("CDCl3"))
+    assert len(kept) == 1
+
+
+@pytest.mark.parametrize(
+    ("formula", "text", "fits"),
+    [
+        ("C2H7N", "2.74 (q, 2H), 1.11 (t, 3H)", True),     # ethylamine, NH2 unreported (from memory)
+        ("C2H6O", "3.69 (q, 2H)", False),                   # ethanol: 3 CH3 H cannot be exchangeable
+        ("C2H6S", "2.57 (q, 2H), 1.31 (t, 3H)", True),     # ethanethiol, SH unreported (from memory)
+    ],
+)
+def test_exchangeable_h_bound_per_heteroatom(formula, text, fits):
+    from rank.spectra import exchangeable_bound
+
+    f = parse_formula(formula)
+    bound = exchangeable_bound(f["N"], f["O"], f["S"], f["H"])
+    peaks = parse_peak_text(text).peaks
+    if fits:
+        assert normalise(peaks, f["H"], bound)[0].missing == f["H"] - sum(p.integral for p in peaks)
+    else:
+        with pytest.raises(InputError, match="exchangeable"):
+            normalise(peaks, f["H"], bound)
