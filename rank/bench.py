@@ -23,6 +23,10 @@ from rdkit import Chem
 from .errors import InputError
 from .shortlist import Identifier
 
+__all__ = [
+    "COLUMNS", "Case", "Outcome", "fit_temperature", "read_cases", "reliability", "run_case", "summary"
+]
+
 COLUMNS = ("id", "name", "formula", "smiles", "solvent", "peaks", "source")
 
 

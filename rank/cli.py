@@ -17,6 +17,8 @@ from pathlib import Path
 
 from .errors import InputError
 
+__all__ = ["build_parser", "main"]
+
 
 class _Parser(argparse.ArgumentParser):
     """argparse that reports a usage error on one line, suggesting the closest option or command."""

@@ -16,6 +16,8 @@ from typing import TYPE_CHECKING
 from .report import report_html, terminal_text, write_whole_file
 from .shortlist import Identifier, Shortlist
 
+__all__ = ["DEMO_PACKAGE", "Unknown", "demo_dir", "fresh_folder", "run_demo", "unknowns"]
+
 if TYPE_CHECKING:
     from importlib.resources.abc import Traversable
 

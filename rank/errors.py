@@ -1,3 +1,5 @@
+
+__all__ = ["InputError"]
 """The one exception the command line turns into a one-line message and exit status 2."""
 
 

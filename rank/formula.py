@@ -13,6 +13,8 @@ from fractions import Fraction
 
 from .errors import InputError
 
+__all__ = ["ELEMENTS", "HALOGENS", "Formula", "parse_formula"]
+
 ELEMENTS = ("C", "H", "N", "O", "S", "P", "F", "Cl", "Br", "I")
 HALOGENS = ("F", "Cl", "Br", "I")
 _TOKEN = re.compile(r"([A-Z][a-z]?)(\d*)")

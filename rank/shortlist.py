@@ -51,6 +51,11 @@ from .spectra import (
 from .standardize import Unsupported, standardize, supported_text
 from .tables import read_table
 
+__all__ = [
+    "CAUTION", "FIELD_RANGE_MHZ", "Candidate", "CandidateFile", "Identifier", "Observation", "Scored",
+    "Shortlist", "available_cores", "identify", "observe", "read_candidates", "score", "temperature"
+]
+
 CAUTION = (
     "A ranked candidate is a hypothesis, not an identification: confirm it with a reference standard "
     "and orthogonal techniques under your laboratory's validated procedures and local regulations, "

@@ -29,6 +29,8 @@ from rdkit.Chem.MolStandardize import rdMolStandardize
 from .errors import InputError
 from .formula import ELEMENTS
 
+__all__ = ["SUPPORTED", "Standardized", "Unsupported", "standardize", "supported_text"]
+
 SUPPORTED = ELEMENTS
 """The elements peakrank works on (``rules/valences.tsv`` and the formula parser)."""
 

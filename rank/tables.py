@@ -16,6 +16,8 @@ from functools import cache
 from importlib.resources import files
 from typing import TYPE_CHECKING
 
+__all__ = ["RULES_PACKAGE", "read_table", "rules_dir", "table_notes"]
+
 if TYPE_CHECKING:
     from importlib.resources.abc import Traversable
 

@@ -19,6 +19,8 @@ from rdkit.Chem.Draw import rdMolDraw2D
 from ..shortlist import CAUTION, Candidate, Shortlist
 from .text import assignment_rows
 
+__all__ = ["PALETTE", "report_html", "stick_svg", "structure_svg"]
+
 PALETTE = ("#1f77b4", "#d62728", "#2ca02c", "#9467bd", "#ff7f0e", "#17becf", "#8c564b",
            "#e377c2", "#bcbd22", "#7f7f7f", "#393b79", "#ad494a", "#637939", "#843c39")
 

@@ -19,6 +19,12 @@ from pathlib import Path
 from ..errors import InputError
 from ..shortlist import CAUTION, Candidate, Shortlist
 
+__all__ = [
+    "CONFIDENCE_DECIMALS", "COUPLING_DECIMALS", "INTEGRAL_DIGITS", "MISFIT_DECIMALS", "PENALTY_DECIMALS",
+    "SHIFT_DECIMALS", "Z_DECIMALS", "assignment_rows", "csv_text", "json_text", "terminal_text", "to_json",
+    "write_whole_file"
+]
+
 SHIFT_DECIMALS = 3        # ppm
 COUPLING_DECIMALS = 2     # Hz
 INTEGRAL_DIGITS = 5       # significant digits; integrals may be relative or absolute

@@ -16,6 +16,8 @@ from .peaks import DASH, NUMBER, Peak, Spectrum, make_peak, number
 from .solvents import find_solvent
 from .text import parse_peak_text
 
+__all__ = ["read_peaks"]
+
 
 def _peak_from_fields(shift: str, integral: object, mult: object, j: object, counts_h: bool = False,
                       label: object = None) -> Peak:

@@ -14,6 +14,8 @@ from fractions import Fraction
 from ..errors import InputError
 from .peaks import Peak, observation_rule
 
+__all__ = ["Normalisation", "exchangeable_bound", "normalise", "with_counts"]
+
 
 @dataclass(frozen=True)
 class Normalisation:

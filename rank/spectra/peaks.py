@@ -18,6 +18,11 @@ from functools import cache
 from ..errors import InputError
 from ..tables import read_table
 
+__all__ = [
+    "DASH", "DEFAULT_FIELD_MHZ", "NUMBER", "SHIFT_RANGE", "Dropped", "Peak", "Spectrum", "coupling_groups",
+    "format_peaks", "make_peak", "normalise_multiplicity", "number", "observation_rule"
+]
+
 SHIFT_RANGE = (-1.0, 16.0)
 _SIMPLE = {"s": 0, "d": 1, "t": 2, "q": 3, "quint": 4, "sext": 5, "sept": 6}
 _ALIASES = {

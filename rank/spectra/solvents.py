@@ -17,6 +17,11 @@ from ..errors import InputError
 from ..tables import read_table
 from .peaks import Dropped, Peak, observation_rule
 
+__all__ = [
+    "DEFAULT_SOLVENT", "Solvent", "drop_labelled_peaks", "drop_solvent_signals", "find_solvent",
+    "solvent_names"
+]
+
 DEFAULT_SOLVENT = "CDCl3"
 """The solvent assumed when neither the user nor the peak list names one."""
 

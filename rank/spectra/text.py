@@ -14,6 +14,8 @@ from ..errors import InputError
 from .peaks import DASH, NUMBER, Peak, Spectrum, make_peak, normalise_multiplicity, number
 from .solvents import find_solvent
 
+__all__ = ["parse_peak_text"]
+
 _NUCLEUS = r"(?P<nucleus>(?:1|¹|\^1)?H|(?:13|¹³|\^13)C)"
 _PARENS = r"\((?P<{name}>[^()]*)\)"
 _HEADER = re.compile(
