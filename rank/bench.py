@@ -4,7 +4,15 @@ A known-answer file is tab-separated, ``#`` comment lines first, with columns
 
     id  name  formula  smiles  solvent  peaks  source
 
-(``peaks`` inline as in a paper, or a path to a peak file).  The rank of the
+(``peaks`` inline as in a paper, or a path to a peak file).  The open assigned
+data set (``benchmarks/data/open-spectra.tsv``, derived from NMRShiftDB2) is read
+as it is: columns ``id`` (InChIKey), ``nmrshiftdb2_id``, ``smiles``, ``formula``,
+``solvent``, ``h1`` (shift and H count per peak, no multiplicities), ``c13``,
+``hsqc``.  Its rows are split once into a fit part (about 80 %) and a held-out
+part (about 20 %) by the SHA-256 of the InChIKey (:func:`data_part`); figures
+are quoted on the held-out part, and nothing is fitted on it.  In library mode
+each compound is ranked among every structure of its formula in a grouped file
+(``benchmarks/data/open-structures-by-formula.tsv``).  The rank of the
 true structure counts ties against it: with three candidates at its misfit, the
 true one is ranked last of the three.  The mean reciprocal rank is the mean of
 1/rank, with 0 for an answer that was never scored.
@@ -13,21 +21,29 @@ true one is ranked last of the three.  The mean reciprocal rank is the mean of
 from __future__ import annotations
 
 import csv
+import hashlib
 import math
+import re
+import tempfile
 import time
+from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
 from rdkit import Chem
 
 from .errors import InputError
+from .formula import ELEMENTS
 from .shortlist import Identifier
 
 __all__ = [
-    "COLUMNS", "Case", "Outcome", "fit_temperature", "read_cases", "reliability", "run_case", "summary"
+    "COLUMNS", "OPEN_COLUMNS", "PARTS", "Case", "Outcome", "data_part", "fit_temperature", "read_cases",
+    "read_library", "reliability", "run_case", "select_cases", "summary",
 ]
 
 COLUMNS = ("id", "name", "formula", "smiles", "solvent", "peaks", "source")
+OPEN_COLUMNS = ("id", "nmrshiftdb2_id", "smiles", "formula", "solvent", "h1")
+PARTS = ("fit", "held-out", "all")
 
 
 @dataclass(frozen=True)
@@ -39,6 +55,7 @@ class Case:
     solvent: str
     peaks: str
     source: str
+    part: str = "all"
 
 
 @dataclass(frozen=True)
@@ -54,13 +71,32 @@ class Outcome:
     refused: str = ""
 
 
-def read_cases(path: str) -> list[Case]:
-    """Rows of a known-answer file; InputError for a missing file or column."""
+def data_part(key: str) -> str:
+    """``"held-out"`` for about one key in five (SHA-256 of the key modulo 5 is 0), else ``"fit"``.
+
+    >>> data_part("AAAXMNYUNVCMCJ-UHFFFAOYSA-N"), data_part("AADOGXABUHCROC-UHFFFAOYSA-N")
+    ('held-out', 'fit')
+    """
+    return "held-out" if int(hashlib.sha256(key.encode()).hexdigest(), 16) % 5 == 0 else "fit"
+
+
+def read_cases(path: str, part: str = "all") -> list[Case]:
+    """Rows of a known-answer file or of the open data set; InputError for a missing file or column.
+
+    ``part`` keeps the fit or the held-out part of the open data set (``"all"``: every row).
+    Rows of the open data with elements peakrank does not handle are left out.
+    """
+    if part not in PARTS:
+        raise InputError(f"part {part!r} unknown; use one of {', '.join(PARTS)}")
     file = Path(path)
     if not file.is_file():
         raise InputError(f"known-answer file {path!r} not found")
     lines = [ln for ln in file.read_text(encoding="utf-8").splitlines() if ln.strip() and not ln.startswith("#")]
+    if lines and not lines[0].startswith("id\t"):
+        lines.insert(0, "\t".join(OPEN_COLUMNS + ("c13", "hsqc")))  # the open data set names its columns in a comment
     rows = list(csv.DictReader(lines, delimiter="\t", quoting=csv.QUOTE_NONE))
+    if rows and all(c in rows[0] for c in OPEN_COLUMNS):
+        rows = [_open_row(r) for r in rows if _supported(r["formula"])]
     if not rows or any(c not in rows[0] for c in COLUMNS):
         raise InputError(f"{path}: needs the tab-separated columns {', '.join(COLUMNS)}")
     cases = []
@@ -68,17 +104,72 @@ def read_cases(path: str) -> list[Case]:
         mol = Chem.MolFromSmiles(r["smiles"])
         if mol is None:
             raise InputError(f"{path}: row {r['id']}: SMILES {r['smiles']!r} is not valid")
-        cases.append(Case(r["id"], r["name"], r["formula"], Chem.MolToSmiles(mol, isomericSmiles=False),
-                          r["solvent"] or "CDCl3", r["peaks"], r["source"]))
+        case = Case(r["id"], r["name"], r["formula"], Chem.MolToSmiles(mol, isomericSmiles=False),
+                    r["solvent"] or "CDCl3", r["peaks"], r["source"], r.get("part", "all"))
+        if part == "all" or case.part == part:
+            cases.append(case)
     return cases
 
 
-def run_case(case: Case, **options) -> Outcome:
+def _open_row(r: dict[str, str]) -> dict[str, str]:
+    return {"id": r["id"], "name": f"NMRShiftDB2 {r['nmrshiftdb2_id']}", "formula": r["formula"],
+            "smiles": r["smiles"], "solvent": r["solvent"], "peaks": r["h1"],
+            "source": f"NMRShiftDB2 {r['nmrshiftdb2_id']} (open data)", "part": data_part(r["id"])}
+
+
+def _supported(formula: str) -> bool:
+    return bool(re.fullmatch(r"(?:[A-Z][a-z]?\d*)+", formula)) and \
+        all(el in ELEMENTS for el in re.findall(r"[A-Z][a-z]?", formula)) and "C" in re.findall(r"[A-Z][a-z]?", formula)
+
+
+def select_cases(cases: list[Case], only: Sequence[str] = (), carbons: str | None = None,
+                 sample: int | None = None) -> list[Case]:
+    """The cases named in ``only`` (all when empty), with a carbon count in ``carbons`` ("LOW-HIGH"),
+    then the first ``sample`` of them in a fixed order (by the SHA-256 of the id)."""
+    chosen = [c for c in cases if not only or c.id in only]
+    if carbons:
+        m = re.fullmatch(r"(\d+)-(\d+)", carbons.strip())
+        if not m:
+            raise InputError(f"--carbons {carbons!r}: give a range such as 2-8")
+        low, high = int(m.group(1)), int(m.group(2))
+        chosen = [c for c in chosen if low <= _carbons(c.formula) <= high]
+    if sample is not None:
+        chosen = sorted(chosen, key=lambda c: hashlib.sha256(c.id.encode()).hexdigest())[:sample]
+    return chosen
+
+
+def _carbons(formula: str) -> int:
+    m = re.search(r"C(?![a-z])(\d*)", formula)
+    return 0 if m is None else int(m.group(1) or 1)
+
+
+def read_library(path: str) -> dict[str, list[str]]:
+    """Structures by formula from a grouped file: ``formula<TAB>smiles|smiles|...`` per line."""
+    file = Path(path)
+    if not file.is_file():
+        raise InputError(f"library file {path!r} not found")
+    library = {}
+    for line in file.read_text(encoding="utf-8").splitlines():
+        if line.strip() and not line.startswith("#") and "\t" in line:
+            formula, smiles = line.split("\t", 1)
+            library[formula.strip()] = [s for s in smiles.strip().split("|") if s]
+    return library
+
+
+def run_case(case: Case, library: dict[str, list[str]] | None = None, **options) -> Outcome:
     """Identify one case with the known answer tracked; a refused run (e.g. a space
-    above the ceiling) is an outcome with the reason, not an error."""
+    above the ceiling) is an outcome with the reason, not an error.  With a
+    ``library``, the candidates are the library's structures of the case's formula."""
     start = time.perf_counter()
     try:
-        result = Identifier(track=case.smiles, **options).identify(case.formula, case.peaks)
+        if library is None:
+            result = Identifier(track=case.smiles, **options).identify(case.formula, case.peaks)
+        else:
+            with tempfile.NamedTemporaryFile("w", suffix=".smi", encoding="utf-8") as suspects:
+                suspects.write("\n".join(library.get(case.formula, [case.smiles])) + "\n")
+                suspects.flush()
+                result = Identifier(track=case.smiles, **options).identify(case.formula, case.peaks,
+                                                                           suspects.name)
     except InputError as exc:
         return Outcome(case, None, 0, time.perf_counter() - start, None, None, None, (), str(exc))
     seconds = time.perf_counter() - start

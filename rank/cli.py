@@ -175,22 +175,31 @@ def _add_bench(sub) -> None:
                      help="refuse compounds whose isomer space is estimated above N (default 2,000,000)")
     ben.add_argument("--fit", action="store_true",
                      help="fit the confidence temperature on this set and print it with the calibration")
+    ben.add_argument("--part", choices=("fit", "held-out", "all"), default="all",
+                     help="of the open data set: the fit part, the held-out part or all rows (default all)")
+    ben.add_argument("--library", metavar="FILE",
+                     help="rank each compound among the structures of its formula in this grouped file "
+                          "(formula<TAB>smiles|smiles|...) instead of generating isomers")
+    ben.add_argument("--carbons", metavar="LOW-HIGH", help="only compounds with this many carbons, e.g. 2-8")
+    ben.add_argument("--sample", type=_positive_int, metavar="N",
+                     help="only the first N cases in a fixed order (by a hash of the id)")
     ben.set_defaults(run=_run_bench)
 
 
 def _run_bench(args: argparse.Namespace) -> int:
-    from .bench import fit_temperature, read_cases, reliability, run_case, summary
+    from .bench import fit_temperature, read_cases, read_library, reliability, run_case, select_cases, summary
     from .generate import DEFAULT_CEILING
     from .shortlist import temperature
 
     workers = _workers(args)
-    cases = [c for c in read_cases(args.file) if not args.only or c.id in args.only]
+    cases = select_cases(read_cases(args.file, args.part), args.only, args.carbons, args.sample)
+    library = read_library(args.library) if args.library else None
     if not cases:
-        raise InputError("no case left to run; check --only")
+        raise InputError("no case left to run; check --only, --part, --carbons and --sample")
     outcomes = []
     print(f"{'id':<14} {'rank':>5} {'scored':>8} {'seconds':>8}  name")
     for case in cases:
-        o = run_case(case, use_hints=not args.no_hints, workers=workers, budget=args.budget,
+        o = run_case(case, library, use_hints=not args.no_hints, workers=workers, budget=args.budget,
                      ceiling=DEFAULT_CEILING if args.ceiling is None else args.ceiling)
         outcomes.append(o)
         rank = "-" if o.rank is None else str(o.rank)
