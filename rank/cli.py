@@ -233,12 +233,18 @@ def _add_identify(sub) -> None:
                      help="a peak file (.csv, .tsv, .json, .jdx) or an inline list such as "
                           "'7.35-7.20 (m, 5H), 4.12 (q, J = 7.1 Hz, 2H), 2.05 (s, 3H)'")
     ide.add_argument("--solvent", metavar="NAME", help="NMR solvent (default: the peak list's, else CDCl3)")
-    ide.add_argument("--field", type=float, metavar="MHZ", help="spectrometer frequency (default: the peak list's, else 400)")
-    ide.add_argument("--top", type=_positive_int, default=10, metavar="N", help="candidates to list (default 10)")
-    ide.add_argument("--candidates", metavar="FILE", help="score these structures (SMILES lines or SDF) instead of all isomers")
-    ide.add_argument("--require", action="append", default=[], metavar="SMARTS", help="candidates must match (repeatable)")
-    ide.add_argument("--forbid", action="append", default=[], metavar="SMARTS", help="candidates must not match (repeatable)")
-    ide.add_argument("--no-hints", action="store_true", help="do not narrow the isomer space with hints read from the peaks")
+    ide.add_argument("--field", type=float, metavar="MHZ",
+                     help="spectrometer frequency (default: the peak list's, else 400)")
+    ide.add_argument("--top", type=_positive_int, default=10, metavar="N",
+                     help="candidates to list (default 10)")
+    ide.add_argument("--candidates", metavar="FILE",
+                     help="score these structures (SMILES lines or SDF) instead of all isomers")
+    ide.add_argument("--require", action="append", default=[], metavar="SMARTS",
+                     help="candidates must match (repeatable)")
+    ide.add_argument("--forbid", action="append", default=[], metavar="SMARTS",
+                     help="candidates must not match (repeatable)")
+    ide.add_argument("--no-hints", action="store_true",
+                     help="do not narrow the isomer space with hints read from the peaks")
     ide.add_argument("--keep-all-peaks", action="store_true", help="do not drop solvent, water and TMS signals")
     ide.add_argument("--workers", type=_positive_int, default=None, metavar="N", help=_workers_help())
     ide.add_argument("--budget", type=_seconds, metavar="SECONDS", help="stop scoring after this long and say so")

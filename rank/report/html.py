@@ -25,10 +25,12 @@ PALETTE = ("#1f77b4", "#d62728", "#2ca02c", "#9467bd", "#ff7f0e", "#17becf", "#8
            "#e377c2", "#bcbd22", "#7f7f7f", "#393b79", "#ad494a", "#637939", "#843c39")
 
 _STYLE = """
-body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;margin:2em auto;max-width:1100px;color:#222;padding:0 1em}
+body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;margin:2em auto;max-width:1100px;color:#222;
+padding:0 1em}
 h1{font-size:1.5em;margin-bottom:.2em} h2{font-size:1.2em;margin-top:2em;border-bottom:1px solid #ccc}
 .caution{background:#fff4e5;border:1px solid #f0a020;padding:.8em 1em;border-radius:4px}
-table{border-collapse:collapse;margin:.5em 0;font-size:.92em} td,th{border:1px solid #ddd;padding:.25em .5em;text-align:left}
+table{border-collapse:collapse;margin:.5em 0;font-size:.92em}
+td,th{border:1px solid #ddd;padding:.25em .5em;text-align:left}
 th{background:#f4f4f4} td.num{text-align:right;font-variant-numeric:tabular-nums}
 .card{display:flex;flex-wrap:wrap;gap:1em;align-items:flex-start}
 .swatch{display:inline-block;width:.9em;height:.9em;border-radius:2px;vertical-align:middle;margin-right:.3em}
@@ -225,6 +227,7 @@ def _candidate_section(c: Candidate, result: Shortlist) -> str:
 def report_html(result: Shortlist, title: str | None = None, shown: int = 5) -> str:
     """The whole report as one HTML document."""
     obs = result.observation
+    norm = result.candidates[0].scored.normalisation if result.candidates else obs.normalisations[0]
     heading = escape(title or f"peakrank short list for {result.formula.hill}")
     used = "".join(
         f"<tr><td class='num'>{p.shift:.2f}</td><td>{escape(p.caption)}</td>"
@@ -244,7 +247,7 @@ def report_html(result: Shortlist, title: str | None = None, shown: int = 5) -> 
         "<h2>Input</h2>"
         f"<p>Formula <strong>{escape(result.formula.hill)}</strong>, DBE {result.formula.dbe}; "
         f"solvent {escape(obs.solvent)}; {obs.field_mhz:g} MHz; integrals "
-        f"{escape(result.candidates[0].scored.normalisation.text if result.candidates else obs.normalisations[0].text)}.</p>"
+        f"{escape(norm.text)}.</p>"
         "<table><tr><th>δ / ppm</th><th>peak</th><th>H</th><th>J / Hz</th><th>label</th></tr>" + used + "</table>"
         + (f"<p>Dropped:</p><ul>{dropped}</ul>" if dropped else "<p>No peak dropped.</p>")
         + (f"<p>Hints applied (turn off with --no-hints):</p><ul>{hints}</ul>" if hints else "")

@@ -44,7 +44,8 @@ class Normalisation:
 
 
 
-def normalise(peaks: tuple[Peak, ...], hydrogens: int, max_missing: int, keep: int | None = None) -> list[Normalisation]:
+def normalise(peaks: tuple[Peak, ...], hydrogens: int, max_missing: int,
+              keep: int | None = None) -> list[Normalisation]:
     """Whole-number H counts for the peaks.
 
     H counts written as whole numbers (``3H``) on every peak are absolute: they
