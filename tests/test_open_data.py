@@ -1,0 +1,60 @@
+"""The open assigned data set in the project: its split, and reading it as a known-answer set.
+
+Outside reference: benchmarks/data/open-spectra.tsv, derived from NMRShiftDB2 (Steinbeck & Kuhn,
+Phytochemistry 2004, 65, 2711; Kuhn & Schloerer, Magn. Reson. Chem. 2015, 53, 582); open data.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+from rdkit import Chem
+from rdkit.Chem import rdMolDescriptors
+
+from rank.bench import data_part, read_cases, read_library, select_cases
+from rank.errors import InputError
+
+DATA = Path(__file__).resolve().parent.parent / "benchmarks" / "data"
+SPECTRA = DATA / "open-spectra.tsv"
+
+
+@pytest.fixture(scope="module")
+def every_case():
+    return read_cases(str(SPECTRA), "all")
+
+
+def test_the_data_keeps_its_attribution():
+    for name in ("open-spectra.tsv", "open-structures-by-formula.tsv"):
+        head = (DATA / name).read_text(encoding="utf-8")[:600]
+        assert "NMRShiftDB2" in head and "Steinbeck" in head
+
+
+def test_split_is_about_one_in_five_and_fixed_by_the_inchikey(every_case):
+    held = [c for c in every_case if c.part == "held-out"]
+    assert 0.17 < len(held) / len(every_case) < 0.23
+    assert all(c.part == data_part(c.id) for c in every_case)
+    assert {c.id for c in read_cases(str(SPECTRA), "held-out")} == {c.id for c in held}
+    assert not {c.id for c in read_cases(str(SPECTRA), "fit")} & {c.id for c in held}
+
+
+def test_every_row_reads_as_a_case_whose_formula_rdkit_confirms(every_case):
+    # NMRShiftDB2 rows against RDKit's formula of their own SMILES
+    assert len(every_case) >= 2900
+    for case in every_case[::7]:
+        assert rdMolDescriptors.CalcMolFormula(Chem.MolFromSmiles(case.smiles)) == case.formula, case.id
+
+
+def test_library_holds_each_compound_under_its_formula(every_case):
+    library = read_library(str(DATA / "open-structures-by-formula.tsv"))
+    for case in every_case[::50]:
+        canonical = {Chem.CanonSmiles(s, useChiral=0) for s in library[case.formula]}
+        assert Chem.CanonSmiles(case.smiles, useChiral=0) in canonical, case.id
+
+
+def test_selection_by_carbons_and_fixed_sample(every_case):
+    small = select_cases(every_case, carbons="2-4")
+    assert small and all(c.formula.startswith(("C2", "C3", "C4")) and not c.formula[2].isdigit() for c in small)
+    assert select_cases(every_case, sample=5) == select_cases(list(reversed(every_case)), sample=5)
+    with pytest.raises(InputError):
+        select_cases(every_case, carbons="many")
