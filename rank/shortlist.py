@@ -524,11 +524,11 @@ class Identifier:
             stream.check_ceiling()
         except SpaceTooLarge as exc:
             raise exc.with_advice(_SUSPECTS_ADVICE if exc.hopeless else _NARROW_ADVICE) from None
-        stream.hinted.clear()
-        units = [_Unit(tuple(types), part, parts) for types in stream.runs()
+        plan = stream.plan()
+        units = [_Unit(tuple(types), part, parts) for types in plan.runs
                  for parts in [_shares(stream, types)] for part in range(parts)]
-        result.hinted = dict(stream.hinted)
-        return units, stream.pruned
+        result.hinted = dict(plan.hinted)
+        return units, plan.pruned
 
     def _listed_units(self, path: str, require, forbid, result: Shortlist) -> list[_Unit]:
         """A candidates file's structures of the formula that pass the patterns, in chunks;
@@ -693,7 +693,7 @@ def _shares(stream: IsomerStream, types) -> int:
 
     Fixed by the Knuth estimate with a fixed seed, so the same for any number of workers.
     """
-    guess = stream._enumerator(types).estimate(16, 1)
+    guess = stream.estimate_run(types)
     return max(1, min(32, math.ceil(guess / 4000)))
 
 

@@ -219,7 +219,7 @@ def _violations(row_id: str) -> list[str]:
             if not mol.HasSubstructMatch(pattern):
                 wrong.append(f"{h.name} ({h.smarts}) from {h.evidence}")
         if h.hydrogens is not None:
-            have = _carbons_with(mol, h.hydrogens, getattr(h, "double_bond", False))
+            have = _carbons_with(mol, h.hydrogens, h.double_bond)
             if have < h.min_atoms:
                 wrong.append(f"{h.name}: needs {h.min_atoms} C with {h.hydrogens} H, has {have}"
                              f" (from {h.evidence})")

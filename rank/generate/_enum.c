@@ -28,12 +28,19 @@
 #define MAXN 40
 #define MAXT 64
 
+/* Bond bans: bit BAN(o) of forbid[a][b] set means bond order o may not join a vertex of
+ * type a to one of type b.  Python names these bits once, as rank.generate.core.BondBan,
+ * whose values are the module constants BAN_DOUBLE and BAN_TRIPLE added in PyInit__enum. */
+#define BAN(order) (1u << (order))
+#define BAN_DOUBLE BAN(2)
+#define BAN_TRIPLE BAN(3)
+
 typedef struct {
     PyObject_HEAD
     int n, ntypes, maxorder;
     int tval[MAXT], tdeg[MAXT], tleft[MAXT];
     int tneed_double[MAXT];             /* 1: the atom must carry a double bond */
-    unsigned char forbid[MAXT][MAXT];   /* bit o set: bond order o not allowed */
+    unsigned char forbid[MAXT][MAXT];   /* BAN(o) set: bond order o not allowed */
     /* search state */
     int k;                      /* level being filled (vertex index) */
     int started;                /* level k holds a live candidate */
@@ -49,7 +56,6 @@ typedef struct {
     int placed_deg;             /* degrees of the placed vertices */
     int excess;                 /* total bond order minus (n - 1) */
     int resid_sum;              /* free valence of the placed vertices */
-    unsigned long long nodes;
     /* share of the work: subtrees below level split_level are dealt out in turn */
     int split_level, part, parts;
     unsigned long long split_count;
@@ -196,7 +202,7 @@ static int feasible(const Enumerator *e, int k)
 
 static int allowed(const Enumerator *e, int ti, int t, int c)
 {
-    return c == 0 || !(e->forbid[ti][t] & (1u << c));
+    return c == 0 || !(e->forbid[ti][t] & BAN(c));
 }
 
 /* Set up the first column of type t at level k; 0 if none exists. */
@@ -281,7 +287,6 @@ static int step(Enumerator *e)
         }
         e->started = 1;
         place(e, k, e->ub[k][MAXN - 1]);
-        e->nodes++;
         if (!feasible(e, k) || !is_canonical(e, k + 1)) continue;
         if (e->parts > 1 && k == (e->split_level < e->n - 1 ? e->split_level : e->n - 1)) {
             if (e->split_count++ % (unsigned long long)e->parts != (unsigned long long)e->part) continue;
@@ -449,23 +454,11 @@ static PyObject *Enumerator_estimate(Enumerator *e, PyObject *args)
     return PyFloat_FromDouble(total / probes);
 }
 
-static PyObject *Enumerator_exhausted(Enumerator *e, PyObject *Py_UNUSED(x))
-{
-    return PyBool_FromLong(e->done);
-}
-
-static PyObject *Enumerator_nodes(Enumerator *e, PyObject *Py_UNUSED(x))
-{
-    return PyLong_FromUnsignedLongLong(e->nodes);
-}
-
 static PyMethodDef Enumerator_methods[] = {
     {"next_batch", (PyCFunction)Enumerator_next_batch, METH_VARARGS,
      "next_batch(limit, flagged_only=False) -> (skipped, records)"},
     {"estimate", (PyCFunction)Enumerator_estimate, METH_VARARGS,
      "estimate(probes, seed) -> expected number of structures (Knuth 1975)"},
-    {"exhausted", (PyCFunction)Enumerator_exhausted, METH_NOARGS, "True when the space is done."},
-    {"nodes", (PyCFunction)Enumerator_nodes, METH_NOARGS, "Search nodes visited so far."},
     {NULL}
 };
 
@@ -488,6 +481,15 @@ PyMODINIT_FUNC PyInit__enum(void)
     PyObject *m = PyModule_Create(&module);
     if (!m) return NULL;
     Py_INCREF(&EnumeratorType);
-    PyModule_AddObject(m, "Enumerator", (PyObject *)&EnumeratorType);
+    if (PyModule_AddObject(m, "Enumerator", (PyObject *)&EnumeratorType) < 0) {
+        Py_DECREF(&EnumeratorType);
+        Py_DECREF(m);
+        return NULL;
+    }
+    if (PyModule_AddIntConstant(m, "BAN_DOUBLE", BAN_DOUBLE) < 0
+        || PyModule_AddIntConstant(m, "BAN_TRIPLE", BAN_TRIPLE) < 0) {
+        Py_DECREF(m);
+        return NULL;
+    }
     return m;
 }

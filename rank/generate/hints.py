@@ -33,7 +33,10 @@ from rdkit import Chem
 from ..formula import Formula
 from ..spectra import Peak
 from ..tables import read_table
+from .atoms import AtomType
 from .fragment import Fragment, FragmentType
+
+__all__ = ["Hint", "hint_rules", "read_hints"]
 
 
 @dataclass(frozen=True)
@@ -64,8 +67,19 @@ class Hint:
         """The hint as the user reads it, e.g. ``2 × ethyl group``."""
         return f"{self.copies} × {self.name}" if self.copies > 1 else self.name
 
-    def allows(self, types) -> bool:
-        """True when a hydrogen distribution [(AtomType or FragmentType, count), ...] can satisfy the hint."""
+    def allows(self, types: Sequence[tuple[AtomType | FragmentType, int]]) -> bool:
+        """Whether a hydrogen distribution can satisfy the hint (enough carbons with ``hydrogens`` H).
+
+        Parameters
+        ----------
+        types : sequence of (AtomType or FragmentType, int)
+            The distribution's vertex types with their counts.
+
+        Returns
+        -------
+        bool
+            Always True for a hint that does not name a hydrogen count.
+        """
         if self.hydrogens is None:
             return True
         have = sum(c * (t.fragment.carbons(self.hydrogens) if isinstance(t, FragmentType)
@@ -73,7 +87,17 @@ class Hint:
         return have >= self.min_atoms
 
     def fits(self, formula: Formula) -> bool:
-        """False when the formula cannot hold any of the hint's groups."""
+        """Whether the formula can hold the hint's groups (``copies`` of one variant) within ``max_dbe``.
+
+        Parameters
+        ----------
+        formula : Formula
+
+        Returns
+        -------
+        bool
+            False when the formula's DBE passes ``max_dbe`` or no variant fits ``copies`` times.
+        """
         if self.max_dbe is not None and formula.dbe > self.max_dbe:
             return False
         return not self.fragments or any(
@@ -81,6 +105,13 @@ class Hint:
             for s in self.fragments)
 
     def pattern(self) -> Chem.Mol | None:
+        """The compiled ``smarts``.
+
+        Returns
+        -------
+        Chem.Mol or None
+            None when the hint has no SMARTS.
+        """
         return Chem.MolFromSmarts(self.smarts) if self.smarts else None
 
 
@@ -121,7 +152,13 @@ def _split(text: str) -> tuple[str, ...]:
 
 @cache
 def hint_rules() -> tuple[_Rule, ...]:
-    """The rows of ``rules/hints.tsv``."""
+    """The rows of ``rules/hints.tsv``.
+
+    Returns
+    -------
+    tuple of _Rule
+        In table order, which is the order hints are read in.
+    """
     rules = []
     for r in read_table("hints"):
         first = _Window(float(r["low"]), float(r["high"]), _split(r["multiplicities"]),
@@ -199,6 +236,11 @@ def read_hints(peaks: Sequence[Peak], counts: Sequence[int], formula: Formula | 
     formula : when given, a group hint claims no more copies than the formula can hold,
         and one whose group does not fit at all (or whose DBE limit the formula passes)
         is left out.
+
+    Returns
+    -------
+    list of Hint
+        In the order of ``rules/hints.tsv``.
     """
     if not any(counts):
         return []

@@ -2,15 +2,16 @@
 
 The formula is split into atom types: an element in one valence state with a
 fixed number of hydrogens, hence a fixed number of bonds to heavy atoms.  For
-every way of sharing the hydrogens among the atoms, the compiled core
-(``rank/generate/_enum.c``) grows connected multigraphs one atom at a time and keeps a
-prefix only when its bond matrix is the lexicographic maximum over relabellings
-(an orderly method: R. C. Read, Ann. Discrete Math. 1978, 2, 107).  No set of
-seen structures is kept, so memory stays bounded whatever the count.
+every way of sharing the hydrogens among the atoms (the runs, ``plan.py``), the
+compiled core (``rank/generate/_enum.c``, set up by ``core.py``) grows connected
+multigraphs one atom at a time and keeps a prefix only when its bond matrix is the
+lexicographic maximum over relabellings (an orderly method: R. C. Read, Ann.
+Discrete Math. 1978, 2, 107).  No set of seen structures is kept, so memory stays
+bounded whatever the count.
 
 Two Kekule forms of one aromatic ring are one compound.  A structure that has an
 alternating cycle (a second Kekule form) is kept only when it is the form that
-RDKit gives back on reading its own canonical SMILES.
+RDKit gives back on reading its own canonical SMILES (``accept.py``).
 
 >>> sorted(s.smiles for s in IsomerStream("C2H6O", complete=True))
 ['CCO', 'COC']
@@ -21,20 +22,18 @@ from __future__ import annotations
 import time
 from collections import Counter
 from collections.abc import Iterable, Iterator
-from dataclasses import dataclass
-from functools import cache, cached_property
-from itertools import combinations_with_replacement, product
-from typing import NamedTuple
-
-from rdkit import Chem, RDLogger
+from typing import NamedTuple, cast
 
 from ..errors import InputError
 from ..formula import Formula, parse_formula
-from ..tables import read_table
-from . import _enum
-from .fragment import Fragment, FragmentType, is_canonical_placement
+from .accept import Acceptor, Isomer, Rejection, Why
+from .core import PLAN_PROBES, EnumeratorFactory, TypeCounts
+from .hints import Hint
+from .plan import Distribution, RunPlanner
+from .smarts import compile_smarts
 
-RDLogger.DisableLog("rdApp.*")
+__all__ = ["DEFAULT_CEILING", "HOPELESS", "MAX_HEAVY_ATOMS", "REFUSAL_SECONDS", "IsomerStream", "Plan",
+           "SpaceTooLarge"]
 
 DEFAULT_CEILING = 2_000_000
 """Largest estimated space a run starts without being asked (``--ceiling``)."""
@@ -48,69 +47,9 @@ REFUSAL_SECONDS = 2.0
 """Time a refusal spends sharpening its estimate after the space is known to pass the ceiling."""
 
 MAX_HEAVY_ATOMS = 40
+"""Most heavy atoms the compiled core takes (``MAXN`` in ``_enum.c``)."""
+
 _BATCH = 2048
-_BOND = {1: Chem.BondType.SINGLE, 2: Chem.BondType.DOUBLE, 3: Chem.BondType.TRIPLE}
-
-
-@dataclass(frozen=True)
-class AtomState:
-    """An element in one valence state (``rules/valences.tsv``)."""
-
-    id: str
-    element: str
-    valence: int
-    charge: int
-    extra: bool
-
-
-@dataclass(frozen=True)
-class AtomType:
-    """An atom state with a fixed hydrogen count; ``degree`` bonds go to heavy atoms."""
-
-    state: AtomState
-    hydrogens: int
-    double_bond: bool | None = None
-    """True: the atom carries a double bond; False: it carries none; None: either."""
-
-    @property
-    def degree(self) -> int:
-        return self.state.valence - self.hydrogens
-
-
-class Isomer(NamedTuple):
-    """One generated structure: canonical SMILES and the sanitised RDKit molecule."""
-
-    smiles: str
-    mol: Chem.Mol
-
-
-class Filter(NamedTuple):
-    """A plausibility filter row of ``rules/filters.tsv``."""
-
-    id: str
-    pattern: Chem.Mol
-    reason: str
-
-
-@cache
-def atom_states() -> tuple[AtomState, ...]:
-    """The valence states of ``rules/valences.tsv``."""
-    return tuple(
-        AtomState(r["id"], r["element"], int(r["valence"]), int(r["charge"]), r["state"] == "extra")
-        for r in read_table("valences")
-    )
-
-
-@cache
-def plausibility_filters() -> tuple[Filter, ...]:
-    """The rows of ``rules/filters.tsv``, SMARTS compiled."""
-    rows = []
-    for r in read_table("filters"):
-        pattern = Chem.MolFromSmarts(r["smarts"])
-        if pattern is None:
-            raise ValueError(f"rules/filters.tsv row {r['id']}: bad SMARTS {r['smarts']!r}")
-        rows.append(Filter(r["id"], pattern, r["reason"]))
-    return tuple(rows)
 
 
 class SpaceTooLarge(InputError):
@@ -143,7 +82,17 @@ class SpaceTooLarge(InputError):
         return self.estimate >= HOPELESS
 
     def with_advice(self, advice: str) -> SpaceTooLarge:
-        """The same refusal with other advice (the command that refuses knows what works there)."""
+        """The same refusal with other advice (the command that refuses knows what works there).
+
+        Parameters
+        ----------
+        advice : str
+            What to try instead, as the end of the one-line message.
+
+        Returns
+        -------
+        SpaceTooLarge
+        """
         return SpaceTooLarge(self.formula, self.estimate, self.ceiling, self.at_least, advice)
 
 
@@ -155,146 +104,16 @@ def _figure(x: float) -> str:
     return f"{mantissa}e{int(exponent)}"
 
 
-def compile_smarts(text: str, what: str = "SMARTS") -> Chem.Mol:
-    """Compile a user's SMARTS or raise InputError with a one-line reason."""
-    pattern = Chem.MolFromSmarts(text) if text and text.strip() else None
-    if pattern is None or pattern.GetNumAtoms() == 0:
-        raise InputError(f"{what} {text!r} is not valid SMARTS (example: 'C(=O)O' or '[OH]')")
-    return pattern
 
+class Plan(NamedTuple):
+    """The work of a stream, planned before any structure is built."""
 
-# ---------------------------------------------------------------- pruning ----
-# A user's SMARTS prunes before structures are built only where the answer is
-# already fixed by the atom types: one-atom patterns over element number, total
-# H count and charge, and forbidden triple bonds between atoms given by element
-# number (``[#6]#[#7]``); SMARTS ``C`` or ``c`` depends on aromaticity, which is
-# known only for the finished structure.
-
-
-def _leaf(line: str, t: AtomType) -> bool | None:
-    words = line.split()
-    if len(words) < 3:
-        return None
-    kind, value, negated = words[0], words[1], "!=" in words or "not" in words
-    try:
-        number = int(value)
-    except ValueError:
-        return None
-    if kind == "AtomAtomicNum":
-        result: bool | None = Chem.GetPeriodicTable().GetAtomicNumber(t.state.element) == number
-    elif kind == "AtomType":
-        # aliphatic or aromatic is decided only on the finished structure (RDKit
-        # even calls some rings with a triple bond aromatic), so a matching
-        # element leaves the answer open
-        same = Chem.GetPeriodicTable().GetAtomicNumber(t.state.element) == number % 1000
-        result = False if not same else None
-    elif kind == "AtomHCount":
-        result = t.hydrogens == number
-    elif kind == "AtomFormalCharge":
-        result = t.state.charge == number
-    else:
-        return None
-    if result is None:
-        return None
-    return (not result) if negated else result
-
-
-def _evaluate(lines: list[str], t: AtomType) -> bool | None:
-    """Three-valued truth of an RDKit query description for an atom type."""
-
-    def node(i: int, depth: int) -> tuple[bool | None, int]:
-        text = lines[i].strip()
-        if text in ("AtomAnd", "AtomOr"):
-            values, j = [], i + 1
-            while j < len(lines) and _indent(lines[j]) > depth:
-                value, j = node(j, _indent(lines[j]))
-                values.append(value)
-            if text == "AtomAnd":
-                if False in values:
-                    return False, j
-                return (None if None in values else True), j
-            if True in values:
-                return True, j
-            return (None if None in values else False), j
-        j = i + 1
-        while j < len(lines) and _indent(lines[j]) > depth:
-            j += 1
-        return _leaf(text, t), j
-
-    return node(0, _indent(lines[0]))[0] if lines else None
-
-
-def _indent(line: str) -> int:
-    return len(line) - len(line.lstrip())
-
-
-def _atom_truth(pattern: Chem.Mol, index: int, t: AtomType | FragmentType) -> bool | None:
-    atom = pattern.GetAtomWithIdx(index)
-    if isinstance(t, FragmentType) or not atom.HasQuery():
-        return None
-    lines = [ln for ln in atom.DescribeQuery().splitlines() if ln.strip()]
-    return _evaluate(lines, t)
-
-
-def _triple_bond_pattern(pattern: Chem.Mol) -> bool:
-    if pattern.GetNumAtoms() != 2 or pattern.GetNumBonds() != 1:
-        return False
-    text = pattern.GetBondWithIdx(0).DescribeQuery().split()
-    return text[:2] == ["BondOrder", "3"] and "!=" not in text
-
-
-# ------------------------------------------------------------------ space ----
-
-
-def _state_choices(formula: Formula, complete: bool) -> Iterator[dict[AtomState, int]]:
-    """Charge-balanced assignments of valence states to the heavy atoms."""
-    per_element = []
-    for element, n in formula.counts:
-        if element == "H":
-            continue
-        states = [s for s in atom_states() if s.element == element and (not s.extra or not complete)]
-        per_element.append([dict(zip(states, c)) for c in _compositions(n, len(states))])
-    for parts in product(*per_element):
-        merged = {s: c for part in parts for s, c in part.items() if c}
-        if sum(s.charge * c for s, c in merged.items()) == 0:
-            yield merged
-
-
-def _compositions(n: int, k: int) -> Iterator[tuple[int, ...]]:
-    if k == 1:
-        yield (n,)
-        return
-    for first in range(n, -1, -1):
-        for rest in _compositions(n - first, k - 1):
-            yield (first, *rest)
-
-
-def _multisets(count: int, hmax: int, total: int) -> Iterator[tuple[int, ...]]:
-    """Non-increasing tuples of ``count`` values in 0..hmax summing to ``total``."""
-    if count == 0:
-        if total == 0:
-            yield ()
-        return
-    for h in range(min(hmax, total), -1, -1):
-        if h * count < total:
-            break
-        for rest in _multisets(count - 1, h, total - h):
-            yield (h, *rest)
-
-
-def _hydrogen_shares(
-    groups: list[tuple[AtomState, int]], hydrogens: int, single: bool
-) -> Iterator[Counter]:
-    if not groups:
-        if hydrogens == 0:
-            yield Counter()
-        return
-    (state, count), rest = groups[0], groups[1:]
-    hmax = state.valence if single else state.valence - 1
-    for share in range(min(hydrogens, hmax * count), -1, -1):
-        for tup in _multisets(count, hmax, share):
-            for tail in _hydrogen_shares(rest, hydrogens - share, single):
-                yield Counter(AtomType(state, h) for h in tup) + tail
+    runs: list[TypeCounts]
+    """The runs of the compiled core, in order."""
+    hinted: Counter
+    """Hint name -> estimated structures its planning removed (groups, distributions, splits)."""
+    pruned: Counter
+    """Option (``"--require '[NH2]'"``) -> hydrogen distributions it ruled out."""
 
 
 class IsomerStream:
@@ -303,23 +122,28 @@ class IsomerStream:
     Parameters
     ----------
     formula : str or Formula
-    complete : bool
+    complete : bool, default False
         True: every connected structure with standard valences, neutral, no
         filters (``isomers --all``).  False: adds the charge-separated and
         hypervalent states of ``rules/valences.tsv`` and removes the motifs of
         ``rules/filters.tsv``.
-    require, forbid : iterable of str
+    require, forbid : iterable of str, default ()
         SMARTS every structure must match / must not match.
-    ceiling : int
+    ceiling : int, default :data:`DEFAULT_CEILING`
         Refuse (:class:`SpaceTooLarge`, an InputError) when the estimated space is
         larger; 0 lifts it.  See :meth:`check_ceiling`.
     budget : float, optional
         Seconds after which the stream stops; ``complete_run`` then says False.
-    hints : iterable of rank.generate.Hint
+    hints : iterable of Hint, default ()
         Claims read from a spectrum; a hydrogen distribution that cannot satisfy
         one is skipped, a structure that misses a hint's SMARTS is dropped, and
         both are counted in ``hinted`` (hint name -> structures, estimated for
         skipped distributions).
+
+    Raises
+    ------
+    InputError
+        Too many heavy atoms, a negative ceiling, a budget not above 0, or a bad SMARTS.
 
     Notes
     -----
@@ -328,6 +152,14 @@ class IsomerStream:
     'C=O'"``: built, then left out), ``pruned`` hydrogen distributions a one-atom
     pattern ruled out before building, and ``complete_run`` tells whether the space
     was exhausted.
+
+    The work is done by a :class:`~rank.generate.plan.RunPlanner`, an
+    :class:`~rank.generate.core.EnumeratorFactory` and an
+    :class:`~rank.generate.accept.Acceptor`; the stream runs them against the budget
+    (one loop, :meth:`_walk`, behind both iteration and :meth:`count`) and keeps the
+    tallies.  The class runs past 80 lines because it is the generator's whole public
+    interface (validation, planning, estimates, the ceiling, iteration, counting) with
+    the docstrings that interface needs; each verb is a few lines over its parts.
     """
 
     def __init__(
@@ -339,7 +171,7 @@ class IsomerStream:
         forbid: Iterable[str] = (),
         ceiling: int = DEFAULT_CEILING,
         budget: float | None = None,
-        hints: Iterable = (),
+        hints: Iterable[Hint] = (),
     ) -> None:
         self.formula = formula if isinstance(formula, Formula) else parse_formula(formula)
         if self.formula.heavy_atoms > MAX_HEAVY_ATOMS:
@@ -351,12 +183,15 @@ class IsomerStream:
         self.complete = complete
         self.require = tuple(require)
         self.forbid = tuple(forbid)
-        self._require = [compile_smarts(s, "--require") for s in self.require]
-        self._forbid = [compile_smarts(s, "--forbid") for s in self.forbid]
+        require_patterns = [(s, compile_smarts(s, "--require")) for s in self.require]
+        forbid_patterns = [(s, compile_smarts(s, "--forbid")) for s in self.forbid]
         self.ceiling = ceiling
         self.budget = budget
         self.hints = tuple(hints)
-        self._hint_patterns = [(h.name, h.pattern()) for h in self.hints if h.smarts]
+        self._factory = EnumeratorFactory(p for _, p in forbid_patterns)
+        self._planner = RunPlanner(self.formula, complete, self.hints, require_patterns, forbid_patterns,
+                                   self._factory)
+        self._acceptor = Acceptor(complete, require_patterns, forbid_patterns, self.hints)
         self.hinted: Counter = Counter()
         self.explored = 0
         self.removed: Counter = Counter()
@@ -364,136 +199,70 @@ class IsomerStream:
         self.pruned: Counter = Counter()
         self.complete_run = False
 
-    # -- the runs of the compiled core ------------------------------------------
+    # -- planning ----------------------------------------------------------------
 
-    def runs(self) -> Iterator[list[tuple[AtomType | FragmentType, int]]]:
-        """The hydrogen distributions the compiled core will search, as [(AtomType, count), ...].
+    def runs(self) -> Iterator[TypeCounts]:
+        """The runs the compiled core will search, as [(AtomType or FragmentType, count), ...].
 
-        A hint that names a group (``Hint.fragments``) contracts one copy of it to a
-        single vertex (a FragmentType); what the contraction removes is estimated
-        hint by hint and counted in ``hinted``.
+        A hint that names a group (``Hint.fragments``) contracts its copies to single
+        vertices (FragmentTypes).  Nothing is counted: see :meth:`plan`.
+
+        Returns
+        -------
+        iterator of TypeCounts
         """
-        self.hinted.update(self._removed_by_groups)
-        yield from self._runs(self._group_hints, True)
+        return self._planner.runs()
 
-    @cached_property
-    def _removed_by_groups(self) -> Counter:
-        """Estimated structures each group hint removes, taking the group hints one by one."""
-        grouped = self._group_hints
-        levels = [sum(self._enumerator(types).estimate(16, 1) for types in self._runs(grouped[:k], False))
-                  for k in range(len(grouped) + 1)] if grouped else []
-        return Counter({h.name: max(0, round(before - after))
-                        for h, before, after in zip(grouped, levels, levels[1:])})
+    def plan(self) -> Plan:
+        """The runs, with what planning them left out (the tallies iteration starts from).
 
-    def _runs(self, grouped: list, tally: bool) -> Iterator[list[tuple[AtomType | FragmentType, int]]]:
-        for formula, groups in _contractions(self.formula, grouped):
-            single = formula.heavy_atoms + len(groups) == 1
-            for states in _state_choices(formula, self.complete):
-                ordered = sorted(states.items(), key=lambda sc: sc[0].id)
-                for share in _hydrogen_shares(ordered, formula["H"], single):
-                    types = sorted([*share.items(), *groups], key=lambda tc: _type_key(tc[0]), reverse=True)
-                    if not self._feasible(types, single):
-                        continue
-                    pruned = self._pruned_by(types)
-                    if pruned is not None:
-                        if tally:
-                            self.pruned[pruned] += 1
-                        continue
-                    refused = next((h for h in self.hints if not h.allows(types)), None)
-                    if refused is not None:
-                        if tally:
-                            self.hinted[refused.name] += round(self._enumerator(types).estimate(16, 1))
-                        continue
-                    yield from self._split_by_double_bonds(types, tally)
-
-    def _split_by_double_bonds(self, types: list, tally: bool = True) -> Iterator[list]:
-        """Apply hints that put hydrogens on doubly bonded carbons.
-
-        Carbons with h H become two types, with and without a double bond; one run per
-        split with at least the hinted number on a double bond.  The runs are disjoint
-        and cover every structure that satisfies the hint.
+        Returns
+        -------
+        Plan
         """
-        claims = [h for h in self.hints if getattr(h, "double_bond", False) and h.hydrogens is not None]
-        if not claims:
-            yield types
-            return
-        claim = max(claims, key=lambda h: h.min_atoms)
-        need = claim.min_atoms - sum(t.fragment.carbons(claim.hydrogens, True) * c
-                                     for t, c in types if isinstance(t, FragmentType))
-        target = next(((t, c) for t, c in types if isinstance(t, AtomType) and t.state.element == "C"
-                       and t.hydrogens == claim.hydrogens and t.double_bond is None), None)
-        if target is None or need <= 0:
-            yield types
-            return
-        t, c = target
-        rest = [tc for tc in types if tc != target]
-        kept = []
-        for k in range(need, c + 1):
-            parts = rest + [(AtomType(t.state, t.hydrogens, True), k), (AtomType(t.state, t.hydrogens, False), c - k)]
-            kept.append(sorted([(a, n) for a, n in parts if n], key=lambda tc: _type_key(tc[0]), reverse=True))
-        if tally:
-            whole = self._enumerator(types).estimate(16, 1)
-            left = sum(self._enumerator(x).estimate(16, 1) for x in kept)
-            self.hinted[claim.name] += max(0, round(whole - left))
-        yield from kept
+        hinted, pruned = Counter(), Counter()
+        runs = []
+        hinted.update(self._planner.group_removals)
+        for d in self._planner.distributions():
+            self._count_planned(d, hinted, pruned)
+            runs.extend(d.runs)
+        return Plan(runs, hinted, pruned)
 
-    @staticmethod
-    def _feasible(types: list[tuple[AtomType, int]], single: bool) -> bool:
-        if single:
-            return types[0][0].degree == 0
-        total = sum(t.degree * c for t, c in types)
-        n = sum(c for _, c in types)
-        return all(t.degree >= 1 for t, _ in types) and total % 2 == 0 and total // 2 >= n - 1
+    def estimate_run(self, types: TypeCounts, probes: int = PLAN_PROBES, seed: int = 1) -> float:
+        """Knuth's random-probe estimate of the structures one run builds.
 
-    def _pruned_by(self, types: list[tuple[AtomType, int]]) -> str | None:
-        """The option (e.g. ``--require '[NH2]'``) that rules out every structure of these types, if any."""
-        for text, p in zip(self.require, self._require):
-            if p.GetNumAtoms() == 1 and all(_atom_truth(p, 0, t) is False for t, _ in types):
-                return f"--require {text!r}"
-        for text, p in zip(self.forbid, self._forbid):
-            if p.GetNumAtoms() == 1 and any(_atom_truth(p, 0, t) is True for t, _ in types):
-                return f"--forbid {text!r}"
-        return None
+        Parameters
+        ----------
+        types : TypeCounts
+            A run of :meth:`runs`.
+        probes : int, default 16 (:data:`~rank.generate.core.PLAN_PROBES`)
+        seed : int, default 1
 
-    def _enumerator(self, types: list[tuple[AtomType, int]], part: int = 0, parts: int = 1) -> _enum.Enumerator:
-        size = len(types)
-        forbid = bytearray(size * size)
-        for p in self._forbid:
-            if not _triple_bond_pattern(p):
-                continue
-            for i, (a, _) in enumerate(types):
-                for j, (b, _) in enumerate(types):
-                    if (_atom_truth(p, 0, a) and _atom_truth(p, 1, b)) or (
-                        _atom_truth(p, 1, a) and _atom_truth(p, 0, b)
-                    ):
-                        forbid[i * size + j] |= 1 << 3
-        for i, (a, _) in enumerate(types):
-            # no double bond on this atom; a contracted group has single bonds only
-            closed = (1 << 2) | (1 << 3) if isinstance(a, FragmentType) else 1 << 2 if a.double_bond is False else 0
-            for j in range(size):
-                forbid[i * size + j] |= closed
-                forbid[j * size + i] |= closed
-        return _enum.Enumerator(
-            [size - i for i in range(size)],
-            [t.degree for t, _ in types],
-            [c for _, c in types],
-            bytes(forbid),
-            part=part,
-            parts=parts,
-            needs_double=[isinstance(t, AtomType) and bool(t.double_bond) for t, _ in types],
-        )
-
-    # -- public verbs --------------------------------------------------------------
+        Returns
+        -------
+        float
+        """
+        return self._factory.estimate(types, probes, seed)
 
     def estimate(self, probes: int = 64, seed: int = 1) -> float:
         """Knuth's random-probe estimate of the structures the core will build.
+
+        Parameters
+        ----------
+        probes : int, default 64
+            Random walks per run.
+        seed : int, default 1
+
+        Returns
+        -------
+        float
 
         References
         ----------
         D. E. Knuth, "Estimating the efficiency of backtrack programs",
         Math. Comp. 1975, 29, 121. doi:10.1090/S0025-5718-1975-0373371-6
         """
-        return sum(self._enumerator(types).estimate(probes, seed) for types in self.runs())
+        return sum(self._factory.estimate(types, probes, seed) for types in self.runs())
 
     def check_ceiling(self) -> None:
         """Raise :class:`SpaceTooLarge` when the estimate of the space is above the ceiling.
@@ -502,209 +271,129 @@ class IsomerStream:
         the ceiling (every term is at least 0, so the whole is then above it too); the
         refusal then spends at most :data:`REFUSAL_SECONDS` carrying the sum on with
         fewer probes, to say roughly how far above, and stops at :data:`HOPELESS`.
-        """
-        if not self.ceiling:
-            return
-        runs = self._runs(self._group_hints, False)
-        total = 0.0
-        for types in runs:
-            total += self._enumerator(types).estimate(64, 1)
-            if total > self.ceiling:
-                break
-        else:
-            return
-        deadline = time.monotonic() + REFUSAL_SECONDS
-        at_least = False
-        for types in runs:
-            if total >= HOPELESS or time.monotonic() > deadline:
-                at_least = True
-                break
-            total += self._enumerator(types).estimate(4, 1)
-        raise SpaceTooLarge(self.formula.hill, total, self.ceiling, at_least)
 
-    @property
-    def _group_hints(self) -> list:
-        return [h for h in self.hints if h.fragments]
+        Raises
+        ------
+        SpaceTooLarge
+        """
+        if self.ceiling:
+            refusal = _refusal(self.formula.hill, self.runs(), self._factory, self.ceiling)
+            if refusal is not None:
+                raise refusal
+
+    # -- streaming ---------------------------------------------------------------
 
     def __iter__(self) -> Iterator[Isomer]:
+        """The isomers, lazily; the ceiling is checked and the tallies reset at the first ``next``."""
+        # every structure built, the walk yields isomers only
+        return cast("Iterator[Isomer]", self._walk(unbuilt=False))
+
+    def stream_run(self, types: TypeCounts, part: int = 0, parts: int = 1,
+                   deadline: float | None = None) -> Iterator[Isomer]:
+        """The isomers of one run, or of share ``part`` of ``parts`` of it.
+
+        The shares are disjoint and together complete, and the same in any
+        process, so they can be searched in parallel.
+
+        Parameters
+        ----------
+        types : TypeCounts
+            A run of :meth:`runs`.
+        part, parts : int, default 0 and 1
+        deadline : float, optional
+            A ``time.time()`` value after which the stream stops.
+
+        Returns
+        -------
+        iterator of Isomer
+            Lazy: the enumerator is set up at the first ``next``.
+        """
+        return cast("Iterator[Isomer]", self._run(types, part, parts, deadline, unbuilt=False))
+
+    def count(self) -> int:
+        """Number of isomers; in the complete space without patterns or hints, only
+        structures with a second Kekule form are built in Python.
+
+        Returns
+        -------
+        int
+            Up to the budget, if one was given (``complete_run`` says whether all).
+        """
+        unbuilt = self.complete and not (self.require or self.forbid or self.hints)
+        return sum(item if isinstance(item, int) else 1 for item in self._walk(unbuilt))
+
+    def _walk(self, unbuilt: bool) -> Iterator[Isomer | int]:
+        """The one streaming loop: every run of the plan, against the budget, with the tallies.
+
+        With ``unbuilt`` (counting the complete space without patterns or hints), a
+        structure without a second Kekule form is accepted without being built: the
+        core only counts such structures, and their number is yielded as an int.
+        """
         self.check_ceiling()
         self.explored, self.removed, self.complete_run = 0, Counter(), False
         self.hinted, self.rejected, self.pruned = Counter(), Counter(), Counter()
         deadline = None if self.budget is None else time.time() + self.budget
-        for types in self.runs():
-            yield from self.stream_run(types, deadline=deadline)
-            if deadline is not None and time.time() > deadline:
-                return
+        self.hinted.update(self._planner.group_removals)
+        for d in self._planner.distributions():
+            self._count_planned(d, self.hinted, self.pruned)
+            for types in d.runs:
+                yield from self._run(types, 0, 1, deadline, unbuilt)
+                if deadline is not None and time.time() > deadline:
+                    return
         self.complete_run = True
 
-    def stream_run(self, types: list[tuple[AtomType, int]], part: int = 0, parts: int = 1,
-                   deadline: float | None = None) -> Iterator[Isomer]:
-        """The isomers of one hydrogen distribution, or of share ``part`` of ``parts`` of it.
-
-        The shares are disjoint and together complete, and the same in any
-        process, so they can be searched in parallel.  ``deadline`` is a
-        ``time.time()`` value after which the stream stops.
-        """
-        core = self._enumerator(types, part, parts)
+    def _run(self, types: TypeCounts, part: int, parts: int, deadline: float | None,
+             unbuilt: bool) -> Iterator[Isomer | int]:
+        core = self._factory.build(types, part, parts)
         kinds = [t for t, _ in types]
+        accept = self._acceptor
         while deadline is None or time.time() <= deadline:
-            _, records = core.next_batch(_BATCH)
-            if not records:
+            skipped, records = core.next_batch(_BATCH, unbuilt)
+            if not records and not skipped:
                 return
+            if skipped:
+                self.explored += skipped
+                yield skipped
             for record in records:
                 self.explored += 1
-                isomer = self._accept(kinds, record)
-                if isomer is not None:
-                    yield isomer
+                verdict = accept(kinds, record)
+                if type(verdict) is Isomer:
+                    yield verdict
+                else:
+                    self._count_rejection(verdict)
 
-    def count(self) -> int:
-        """Number of isomers; in the complete space without patterns, only
-        structures with a second Kekule form are built in Python."""
-        if not self.complete or self._require or self._forbid or self.hints:
-            return sum(1 for _ in self)
-        self.check_ceiling()
-        self.explored, self.complete_run = 0, False
-        deadline = None if self.budget is None else time.time() + self.budget
-        total = 0
-        for types in self.runs():
-            core = self._enumerator(types)
-            kinds = [t for t, _ in types]
-            while True:
-                if deadline is not None and time.time() > deadline:
-                    return total
-                skipped, records = core.next_batch(_BATCH, True)
-                if not records and not skipped:
-                    break
-                total += skipped
-                self.explored += skipped + len(records)
-                total += sum(1 for r in records if self._accept(kinds, r) is not None)
-        self.complete_run = True
-        return total
+    def _count_planned(self, d: Distribution, hinted: Counter, pruned: Counter) -> None:
+        if d.pruned is not None:
+            pruned[d.pruned] += 1
+        removal = self._planner.hint_removal(d)
+        if removal is not None:
+            hinted[removal[0]] += removal[1]
 
-    # -- one structure ---------------------------------------------------------
-
-    def _accept(self, kinds: list, record: bytes) -> Isomer | None:
-        mol, copies = _assemble(kinds, record, expand=True)
-        if mol is None:
-            return None
-        smiles = None
-        if copies:
-            # the Kekule forms to merge are those of the contracted graph: the groups'
-            # own rings are always written in one form, and their bonds out are single
-            if record[-1] and not _is_kekule_representative(_assemble(kinds, record, expand=False)[0],
-                                                            _assemble(kinds, record, False, False)[0]):
-                return None
-            if not is_canonical_placement(mol, copies):
-                return None
-        elif record[-1]:
-            smiles = Chem.MolToSmiles(mol)
-            if not _is_kekule_representative(mol, build_molecule(kinds, record, aromatize=False), smiles):
-                return None
-        # the user's patterns and the hints first: they are the most selective
-        for text, p in zip(self.require, self._require):
-            if not mol.HasSubstructMatch(p):
-                self.rejected[f"--require {text!r}"] += 1
-                return None
-        for text, p in zip(self.forbid, self._forbid):
-            if mol.HasSubstructMatch(p):
-                self.rejected[f"--forbid {text!r}"] += 1
-                return None
-        for name, pattern in self._hint_patterns:
-            if not mol.HasSubstructMatch(pattern):
-                self.hinted[name] += 1
-                return None
-        if not self.complete:
-            for f in plausibility_filters():
-                if mol.HasSubstructMatch(f.pattern):
-                    self.removed[f.id] += 1
-                    return None
-        return Isomer(smiles or Chem.MolToSmiles(mol), mol)
+    def _count_rejection(self, rejection: Rejection) -> None:
+        why = rejection.why
+        if why is Why.FILTER:
+            self.removed[rejection.key] += 1
+        elif why is Why.PATTERN:
+            self.rejected[rejection.key] += 1
+        elif why is Why.HINT:
+            self.hinted[rejection.key] += 1
 
 
-def _type_key(t: AtomType | FragmentType) -> tuple:
-    if isinstance(t, FragmentType):
-        return t.sort_key()
-    return (t.degree, t.state.valence, -t.hydrogens, t.state.id, {None: 0, True: 1, False: -1}[t.double_bond])
-
-
-_STAND_IN_ISOTOPE = 200
-"""A contracted group drawn unexpanded is a saturated carbon labelled with this mass plus its type index."""
-
-
-def _assemble(kinds: list, record: bytes, expand: bool = True,
-              aromatize: bool = True) -> tuple[Chem.Mol | None, list[tuple[FragmentType, frozenset[int]]]]:
-    """An RDKit molecule from one record of the compiled core, and the atoms of each expanded group.
-
-    ``expand=False`` draws each contracted group as a labelled saturated carbon.
-    """
-    n = (int((8 * (len(record) - 1) + 1) ** 0.5) - 1) // 2
-    rw = Chem.RWMol()
-    ports: list = []    # per vertex: its atom, or the list of an expanded group's open atoms
-    copies = []
-    for i in range(n):
-        t = kinds[record[i]]
-        if type(t) is FragmentType:
-            if expand:
-                atoms, open_atoms = t.fragment.add_to(rw)
-                copies.append((t, atoms))
-                ports.append(open_atoms)
-                continue
-            atom = Chem.Atom(6)
-            atom.SetIsotope(_STAND_IN_ISOTOPE + record[i])
-            atom.SetNumExplicitHs(4 - t.degree)
-        else:
-            atom = Chem.Atom(t.state.element)
-            atom.SetFormalCharge(t.state.charge)
-            atom.SetNumExplicitHs(t.hydrogens)
-        atom.SetNoImplicit(True)
-        ports.append(rw.AddAtom(atom))
-    p = n
-    for i in range(n):
-        for j in range(i + 1, n):
-            order = record[p]
-            p += 1
-            if order:
-                a, b = ports[i], ports[j]
-                rw.AddBond(a if type(a) is int else a.pop(), b if type(b) is int else b.pop(), _BOND[order])
-    mol = rw.GetMol()
-    ops = Chem.SANITIZE_ALL if aromatize else Chem.SANITIZE_ALL ^ Chem.SANITIZE_SETAROMATICITY
-    try:
-        Chem.SanitizeMol(mol, ops)
-    except Chem.rdchem.MolSanitizeException:  # a valence RDKit does not accept
-        return None, []
-    return mol, copies
-
-
-def build_molecule(kinds: list, record: bytes, aromatize: bool = True) -> Chem.Mol | None:
-    """An RDKit molecule from one record of the compiled core (contracted groups expanded)."""
-    return _assemble(kinds, record, True, aromatize)[0]
-
-
-def _is_kekule_representative(mol: Chem.Mol, own: Chem.Mol, smiles: str | None = None) -> bool:
-    """True when the Kekule form ``own`` of ``mol`` is the one RDKit reads back from its canonical SMILES."""
-    if not any(a.GetIsAromatic() for a in mol.GetAtoms()):
-        return True
-    reference = Chem.MolFromSmiles(smiles or Chem.MolToSmiles(mol))
-    Chem.Kekulize(reference, clearAromaticFlags=True)
-    return Chem.MolToSmiles(own) == Chem.MolToSmiles(reference)
-
-
-def _contractions(formula: Formula, grouped: list) -> Iterator[tuple[Formula, list[tuple[FragmentType, int]]]]:
-    """For each choice of variants (``copies`` per group hint): the formula left after taking
-    those copies out, and the contracted vertices."""
-    if not grouped:
-        yield formula, []
-        return
-    families = [tuple(Fragment(s) for s in h.fragments) for h in grouped]
-    picks = [combinations_with_replacement(family, h.copies) for h, family in zip(grouped, families)]
-    for choice in product(*picks):
-        left = formula.minus(sum((f.formula_counts() for chosen in choice for f in chosen), Counter()))
-        if left is None:
-            continue
-        merged = Counter(FragmentType(f, family) for chosen, family in zip(choice, families) for f in chosen)
-        yield left, sorted(merged.items(), key=lambda tc: tc[0].sort_key())
-
-
-def isomers(formula: str, **options) -> Iterator[str]:
-    """Canonical SMILES of the isomers of ``formula``; options as :class:`IsomerStream`."""
-    return (iso.smiles for iso in IsomerStream(formula, **options))
+def _refusal(hill: str, runs: Iterator[TypeCounts], factory: EnumeratorFactory,
+             ceiling: int) -> SpaceTooLarge | None:
+    """The refusal :meth:`IsomerStream.check_ceiling` raises, or None under the ceiling."""
+    total = 0.0
+    for types in runs:
+        total += factory.estimate(types, 64, 1)
+        if total > ceiling:
+            break
+    else:
+        return None
+    deadline = time.monotonic() + REFUSAL_SECONDS
+    at_least = False
+    for types in runs:
+        if total >= HOPELESS or time.monotonic() > deadline:
+            at_least = True
+            break
+        total += factory.estimate(types, 4, 1)
+    return SpaceTooLarge(hill, total, ceiling, at_least)
