@@ -7,12 +7,17 @@ V. Kotlyar, A. Nudelman, J. Org. Chem. 1997, 62, 7512 (G97); all from memory.
 
 from __future__ import annotations
 
+import ast
 import json
 import math
+import subprocess
+import sys
+from pathlib import Path
 
 import pytest
 from rdkit import Chem
 
+import rank
 from rank.cli import main
 from rank.errors import InputError
 from rank.predict import Predictor, Signal, Term, parse_smiles, predict_smiles, signal_table
@@ -351,3 +356,27 @@ def test_predict_command_bad_input_exits_2_with_one_line(argv, capsys):
     assert main(argv) == 2
     captured = capsys.readouterr()
     assert captured.out == "" and captured.err.count("\n") == 1
+
+
+def test_importing_the_predictor_leaves_rdkit_logging_on_and_parse_smiles_holds_back_its_own():
+    # RDKit's parse messages are held back while parse_smiles parses (its InputError says what is
+    # wrong, on one line), and only then: a later parse elsewhere still logs
+    code = ("from rdkit import Chem\n"
+            "from rank.predict import parse_smiles\n"
+            "try:\n    parse_smiles('C1CC')\nexcept Exception:\n    pass\n"
+            "Chem.MolFromSmiles('CC(')\n")
+    run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120,
+                         cwd=Path(__file__).resolve().parent.parent, check=True)
+    assert "C1CC" not in run.stderr
+    assert "CC(" in run.stderr
+
+
+def test_predict_and_match_modules_use_only_public_names_of_other_modules():
+    # ../shared/GUIDE.md section 1: a module uses another's public names only
+    root = Path(rank.__file__).resolve().parent
+    for path in [*sorted((root / "predict").glob("*.py")), root / "match.py"]:
+        for node in ast.walk(ast.parse(path.read_text(encoding="utf-8"))):
+            if isinstance(node, ast.ImportFrom):
+                private = [a.name for a in node.names if a.name.startswith("_") and not a.name.startswith("__")]
+                assert not private, f"{path.name} imports {private} from {node.module}"
+

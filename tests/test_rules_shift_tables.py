@@ -397,6 +397,28 @@ def test_every_family_has_a_sigma():
     assert all(value > 0 for value in sigma.values())
 
 
+def test_a_family_without_a_sigma_is_an_error_when_the_tables_load(monkeypatch):
+    from rank.predict import shifts
+
+    real = shifts.read_table
+    monkeypatch.setattr(shifts, "read_table",
+                        lambda name: [r for r in real(name) if not (name == "sigma" and r["family"] == "SH")])
+    with pytest.raises(ValueError, match="sigma.tsv has no sigma for SH"):
+        shifts.shift_tables.__wrapped__()   # the uncached loader
+
+
+def test_multiplet_table_gives_every_rule_once(monkeypatch):
+    from rank.predict import multiplets
+
+    rules = multiplets.multiplet_rules()
+    assert {r["id"] for r in read_table("multiplet")} == set(rules._fields)
+    real = multiplets.read_table
+    monkeypatch.setattr(multiplets, "read_table",
+                        lambda name: [r for r in real(name) if r["id"] != "merge_j"])
+    with pytest.raises(ValueError, match="merge_j"):
+        multiplets.multiplet_rules.__wrapped__()
+
+
 def test_every_known_solvent_has_solvent_rows():
     from rank.spectra import solvent_names
 

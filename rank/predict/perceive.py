@@ -46,6 +46,12 @@ from rdkit import Chem
 
 from ..errors import InputError
 
+__all__ = [
+    "CIS_RING_MAX", "CIS_TO_H", "DIASTEREOTOPIC_REACH", "EXCHANGEABLE", "FAMILIES", "NOT_ALKENE",
+    "SP3_FAMILIES", "ClassDraft", "Graph", "Partner", "Perception", "ProtonClass", "Rotamer", "Site",
+    "perceive", "proton_classes",
+]
+
 FAMILIES = (
     "CH3", "CH2", "CH", "alkene", "aromatic", "heteroaromatic", "aldehyde", "formyl",
     "alkyne", "imine", "OH", "NH", "SH", "COOH", "other",
@@ -53,7 +59,9 @@ FAMILIES = (
 """Every family a class may carry."""
 
 EXCHANGEABLE = frozenset({"OH", "NH", "SH", "COOH"})
+"""Families of hydrogens on O, N or S, which exchange with labile deuterium of the solvent."""
 SP3_FAMILIES = frozenset({"CH3", "CH2", "CH"})
+"""Families of hydrogens on sp3 carbon (the additivity of ``rules/shift_alkyl.tsv``)."""
 
 NOT_ALKENE = -2
 """``cis_to`` of a class whose hydrogens are not on a double-bond carbon."""
@@ -124,21 +132,33 @@ class ProtonClass:
     cis_to: int = NOT_ALKENE
     rotamer: Rotamer | None = None
 
-    @property
-    def h_per_atom(self) -> int:
-        """Hydrogens of the class on each of its atoms."""
-        return self.n_h // len(self.atoms)
-
 
 class Graph(NamedTuple):
-    """Plain-Python view of the heavy-atom molecule, built once per structure."""
+    """Plain-Python view of the heavy-atom molecule, built once per structure.
 
-    mol: Chem.Mol                   # heavy atoms only; SMARTS tables are matched on it
-    index: tuple[int, ...] | None   # heavy atom -> input atom (None: the same)
+    Lists are indexed by heavy atom (the atoms of ``mol``).
+
+    Attributes
+    ----------
+    mol : the molecule with hydrogens implicit; the SMARTS tables are matched on it.
+    index : heavy atom -> atom of the input molecule; None when they are the same.
+    z : atomic numbers.
+    nh : hydrogens on each atom.
+    aromatic : RDKit's aromaticity flag of each atom.
+    bonds : for each atom, neighbour -> bond order (1, 1.5, 2 or 3).
+    rings : RDKit's smallest set of smallest rings, as atom tuples.
+    ranks : canonical ranks without tie-breaking (equal ranks: atoms related by symmetry).
+    elements : the atomic numbers present (a table row needing another is not matched).
+    stereo : for each stereo-defined double bond (a, b), in both directions:
+        (atom on a, atom on b, whether those two are cis).
+    """
+
+    mol: Chem.Mol
+    index: tuple[int, ...] | None
     z: list[int]
     nh: list[int]
     aromatic: list[bool]
-    bonds: list[dict[int, float]]   # neighbour -> bond order (1, 1.5, 2, 3)
+    bonds: list[dict[int, float]]
     rings: tuple[tuple[int, ...], ...]
     ranks: list[int]
     elements: frozenset[int]
@@ -149,15 +169,41 @@ class Graph(NamedTuple):
         return self.z[i] == 6 and not self.aromatic[i] and all(o == 1.0 for o in self.bonds[i].values())
 
 
-class _Site(NamedTuple):
-    atom: int      # heavy atom (graph index)
-    n: int         # its H in this class
-    side: int      # =CH2 split: 0 or 1 (which side of the other carbon the H is cis to); else -1
+class Site(NamedTuple):
+    """The hydrogens of a proton class on one heavy atom.
+
+    Attributes
+    ----------
+    atom : the heavy atom, as a :class:`Graph` index.
+    n_h : how many of its hydrogens belong to the class.
+    side : for one H of a split ``=CH2``, which of the two groups on the other carbon it is
+        cis to (0: the larger, 1: the smaller); -1 otherwise.
+    """
+
+    atom: int
+    n_h: int
+    side: int
 
 
 @dataclass
-class _Draft:
-    sites: list[_Site]
+class ClassDraft:
+    """A proton class as perception builds it, on :class:`Graph` indices.
+
+    Perception starts from the symmetry classes and splits or marks them (alkene
+    geometry, amide rotamers, diastereotopic CH2); :func:`perceive` then turns each
+    draft into a :class:`ProtonClass` on input indices.  The shift predictor reads the
+    drafts, since its tables are matched on the graph's heavy-atom molecule.
+
+    Attributes
+    ----------
+    sites : the heavy atoms carrying the class's H, with their H counts.
+    family : one of :data:`FAMILIES`.
+    cis_to : as :attr:`ProtonClass.cis_to`, but a :class:`Graph` index.
+    rotamer : as :attr:`ProtonClass.rotamer`.
+    diastereotopic : as :attr:`ProtonClass.diastereotopic`.
+    """
+
+    sites: list[Site]
     family: str
     cis_to: int = NOT_ALKENE
     rotamer: Rotamer | None = None
@@ -165,11 +211,15 @@ class _Draft:
 
 
 class Perception(NamedTuple):
-    """Proton classes with the graph they were found on; ``drafts`` hold graph indices."""
+    """Proton classes with the graph they were found on.
+
+    ``classes[k]`` and ``drafts[k]`` are the same class, on input and on graph indices;
+    the drafts are not changed once :func:`perceive` has returned them.
+    """
 
     graph: Graph
     classes: tuple[ProtonClass, ...]
-    drafts: tuple[_Draft, ...]
+    drafts: tuple[ClassDraft, ...]
 
 
 def proton_classes(mol: Chem.Mol) -> list[ProtonClass]:
@@ -194,7 +244,23 @@ def proton_classes(mol: Chem.Mol) -> list[ProtonClass]:
 
 
 def perceive(mol: Chem.Mol) -> Perception:
-    """Proton classes plus the graph data the shift prediction reuses."""
+    """Proton classes plus the graph data the shift prediction reuses.
+
+    Parameters
+    ----------
+    mol : rdkit.Chem.Mol
+        A sanitised molecule, hydrogens implicit or explicit.
+
+    Returns
+    -------
+    Perception
+        The classes of :func:`proton_classes`, their drafts and the heavy-atom graph.
+
+    Raises
+    ------
+    InputError
+        When ``mol`` is None.
+    """
     if mol is None:
         raise InputError("no molecule given (an unreadable SMILES gives None); check the structure")
     graph = _graph(mol)
@@ -213,7 +279,7 @@ def perceive(mol: Chem.Mol) -> Perception:
         cis_to = d.cis_to if (to_input is None or d.cis_to < 0) else to_input[d.cis_to]
         classes.append(ProtonClass(
             atoms=shown,
-            n_h=sum(s.n for s in d.sites),
+            n_h=sum(s.n_h for s in d.sites),
             family=d.family,
             exchangeable=d.family in EXCHANGEABLE,
             partners=p,
@@ -306,12 +372,12 @@ def _family(g: Graph, i: int) -> str:
     return "other"
 
 
-def _symmetry_classes(g: Graph) -> list[_Draft]:
+def _symmetry_classes(g: Graph) -> list[ClassDraft]:
     groups: dict[int, list[int]] = {}
     for i, n in enumerate(g.nh):
         if n:
             groups.setdefault(g.ranks[i], []).append(i)
-    return [_Draft([_Site(a, g.nh[a], -1) for a in atoms], _family(g, atoms[0]))
+    return [ClassDraft([Site(a, g.nh[a], -1) for a in atoms], _family(g, atoms[0]))
             for atoms in groups.values()]
 
 
@@ -377,7 +443,7 @@ def _cis_to_single_h(g: Graph, a: int, b: int) -> int:
     return sides[0][1]
 
 
-def _split_alkene_ch2(g: Graph, drafts: list[_Draft]) -> list[_Draft]:
+def _split_alkene_ch2(g: Graph, drafts: list[ClassDraft]) -> list[ClassDraft]:
     out = []
     for d in drafts:
         if d.family not in ("alkene", "imine"):
@@ -392,7 +458,7 @@ def _split_alkene_ch2(g: Graph, drafts: list[_Draft]) -> list[_Draft]:
         sides = _sides(g, first, b)
         if len(sides) == 2 and sides[0][0] != sides[1][0]:
             for k in (0, 1):
-                out.append(_Draft([_Site(s.atom, 1, k) for s in d.sites], d.family, sides[k][1]))
+                out.append(ClassDraft([Site(s.atom, 1, k) for s in d.sites], d.family, sides[k][1]))
         else:
             d.cis_to = sides[0][1] if sides else CIS_TO_H
             out.append(d)
@@ -429,13 +495,13 @@ def _distances(g: Graph, start: int, blocked: int) -> dict[int, int]:
     return dist
 
 
-def _split_branches(g: Graph, drafts: list[_Draft], centre: int, first: int, second: int,
-                    rotamer: bool) -> list[_Draft]:
+def _split_branches(g: Graph, drafts: list[ClassDraft], centre: int, first: int, second: int,
+                    rotamer: bool) -> list[ClassDraft]:
     """Split classes whose atoms lie in both of two equivalent branches off ``centre``."""
     da, db = _distances(g, first, centre), _distances(g, second, centre)
     out = []
     for d in drafts:
-        parts: dict[int, list[_Site]] = {}
+        parts: dict[int, list[Site]] = {}
         for s in d.sites:
             a, b = da.get(s.atom, 10**6), db.get(s.atom, 10**6)
             parts.setdefault((a < b) - (a > b), []).append(s)
@@ -446,11 +512,11 @@ def _split_branches(g: Graph, drafts: list[_Draft], centre: int, first: int, sec
             tag = d.rotamer
             if side and rotamer:
                 tag = Rotamer(side, min(da[s.atom] if side == 1 else db[s.atom] for s in sites))
-            out.append(_Draft(sites, d.family, d.cis_to, tag))
+            out.append(ClassDraft(sites, d.family, d.cis_to, tag))
     return out
 
 
-def _split_amide_rotamers(g: Graph, drafts: list[_Draft]) -> list[_Draft]:
+def _split_amide_rotamers(g: Graph, drafts: list[ClassDraft]) -> list[ClassDraft]:
     for n, first, second in _amide_branches(g):
         drafts = _split_branches(g, drafts, n, first, second, rotamer=True)
     return drafts
@@ -472,7 +538,7 @@ def _alkene_twin_branches(g: Graph) -> list[tuple[int, int, int]]:
     return found
 
 
-def _split_alkene_twins(g: Graph, drafts: list[_Draft]) -> list[_Draft]:
+def _split_alkene_twins(g: Graph, drafts: list[ClassDraft]) -> list[ClassDraft]:
     for b, first, second in _alkene_twin_branches(g):
         drafts = _split_branches(g, drafts, b, first, second, rotamer=False)
     return drafts
@@ -510,7 +576,7 @@ def _faced_rings(g: Graph) -> list[tuple[int, ...]]:
     return found
 
 
-def _mark_diastereotopic(g: Graph, drafts: list[_Draft]) -> None:
+def _mark_diastereotopic(g: Graph, drafts: list[ClassDraft]) -> None:
     ch2 = [d for d in drafts if d.family == "CH2"]
     if not ch2:
         return
@@ -573,9 +639,9 @@ def _bond_kind(g: Graph, fam: list[str], a: int, b: int) -> str | None:
     return "vic_sp3"
 
 
-def _partners(g: Graph, drafts: list[_Draft]) -> list[tuple[Partner, ...]]:
+def _partners(g: Graph, drafts: list[ClassDraft]) -> list[tuple[Partner, ...]]:
     fam = ["" for _ in g.z]
-    on_atom: dict[int, list[tuple[int, _Site]]] = {}
+    on_atom: dict[int, list[tuple[int, Site]]] = {}
     for k, d in enumerate(drafts):
         for s in d.sites:
             fam[s.atom] = d.family
@@ -584,12 +650,12 @@ def _partners(g: Graph, drafts: list[_Draft]) -> list[tuple[Partner, ...]]:
     for i, d in enumerate(drafts):
         a = d.sites[0].atom
         links: list[tuple[int, int, str | None]] = [
-            (j, s.n, "gem_sp2") for j, s in on_atom[a] if j != i   # the other H of a split =CH2
+            (j, s.n_h, "gem_sp2") for j, s in on_atom[a] if j != i   # the other H of a split =CH2
         ]
         for b in g.bonds[a]:
             for j, s in on_atom.get(b, ()):
                 kind = _alkene_kind(g, drafts, i, j, a) if g.bonds[a][b] == 2.0 else _bond_kind(g, fam, a, b)
-                links.append((j, s.n, kind))
+                links.append((j, s.n_h, kind))
         links.extend(_long_range(g, fam, on_atom, a))
         found: dict[tuple[int, str], int] = {}
         for j, n, kind in links:
@@ -599,7 +665,7 @@ def _partners(g: Graph, drafts: list[_Draft]) -> list[tuple[Partner, ...]]:
     return result
 
 
-def _alkene_kind(g: Graph, drafts: list[_Draft], i: int, j: int, a: int) -> str | None:
+def _alkene_kind(g: Graph, drafts: list[ClassDraft], i: int, j: int, a: int) -> str | None:
     """alkene_cis or alkene_trans for H of class i on a and H of class j on b across a=b."""
     if drafts[i].family not in ("alkene", "imine") or drafts[j].family not in ("alkene", "imine"):
         return None
@@ -619,7 +685,7 @@ def _long_range(g: Graph, fam: list[str], on_atom: dict, a: int):
                 for q in (p - 2, p + 2):
                     c = ring[q % 6]
                     for j, s in on_atom.get(c, ()):
-                        yield j, s.n, "meta"
+                        yield j, s.n_h, "meta"
         return
     for b, order in g.bonds[a].items():
         kind = _four_bond_kind(g, fam, a, b, order)
@@ -627,13 +693,13 @@ def _long_range(g: Graph, fam: list[str], on_atom: dict, a: int):
             for c, o2 in g.bonds[b].items():
                 if c != a and o2 == 1.0 and fam[c] in SP3_FAMILIES:
                     for j, s in on_atom.get(c, ()):
-                        yield j, s.n, kind
+                        yield j, s.n_h, kind
         elif order == 1.0 and fam[a] in SP3_FAMILIES:
             for c, o2 in g.bonds[b].items():
                 kind = None if c == a else _four_bond_kind(g, fam, c, b, o2)
                 if kind is not None:
                     for j, s in on_atom.get(c, ()):
-                        yield j, s.n, kind
+                        yield j, s.n_h, kind
 
 
 def _four_bond_kind(g: Graph, fam: list[str], a: int, b: int, order: float) -> str | None:

@@ -1,23 +1,11 @@
 """Predicted 1H NMR signals of a structure: shifts with their arithmetic, multiplicities and J.
 
-Every shift is a sum of named terms read from the tables in ``rules/``:
-
-* H on sp3 carbon: Shoolery-type additivity, a base value for CH3, CH2 or CH
-  plus alpha increments of the substituents on the carbon and beta increments
-  of those on its sp3 neighbours, with ring, acetal and multiple-substitution
-  corrections (``shift_alkyl.tsv``, ``shift_alkyl_site.tsv``);
-* alkene H: 5.25 + Z_gem + Z_cis + Z_trans (Pascual, Meier and Simon;
-  ``shift_alkene.tsv``);
-* benzene H: 7.36 + ortho, meta and para increments (``shift_benzene.tsv``);
-  heteroaromatic H: the parent ring's value at that position plus the same
-  increments by ring distance (``shift_heteroaromatic.tsv``);
-* aldehyde, formyl, alkyne and imine H, and exchangeable H with a typical value
-  and range (``shift_special.tsv``);
-* then a solvent correction (``solvent_shift.tsv``).
-
-The multiplicity is first order (n+1 rule over groups of equal J, typical J by
-coupling kind from ``coupling.tsv``), or ``m`` where partners lie too close in
-Hz for first-order analysis at the given field (``multiplet.tsv``).
+A :class:`Predictor` perceives the proton classes of a molecule (``rank.predict.perceive``),
+computes each class's shift as a sum of named terms from the tables in ``rules/``
+(``rank.predict.shifts``: Shoolery-type additivity on sp3 carbon, Pascual-Meier-Simon
+increments on alkenes, benzene and heteroaromatic increments, typical values for the rest,
+then a solvent correction) and its first-order multiplet (``rank.predict.multiplets``),
+and returns one :class:`Signal` per class, highest shift first.
 
 Prediction is a pure function of (molecule, solvent, field): the tables are
 read and their SMARTS compiled once, and each table's patterns are matched
@@ -39,37 +27,24 @@ H. E. Gottlieb, V. Kotlyar, A. Nudelman, J. Org. Chem. 1997, 62, 7512. doi:10.10
 
 from __future__ import annotations
 
+import dataclasses
 import math
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
-from functools import cache
-from typing import NamedTuple
 
-from rdkit import Chem, RDLogger
+from rdkit import Chem, rdBase
 
 from ..errors import InputError
-from ..spectra import find_solvent
-from ..tables import read_table
-from .perceive import EXCHANGEABLE, SP3_FAMILIES, Graph, Perception, _Draft, perceive
+from ..spectra import Solvent, find_solvent
+from .multiplets import Coupling, MultipletPredictor
+from .perceive import ProtonClass, perceive
+from .shifts import ShiftCalculator, Term
 
-RDLogger.DisableLog("rdApp.*")
+__all__ = ["Coupling", "Predictor", "Signal", "Term", "parse_smiles", "predict_smiles", "signal_table"]
 
 DEFAULT_FIELD_MHZ = 400.0
-
-
-class Term(NamedTuple):
-    """One named summand of a predicted shift (ppm)."""
-
-    name: str
-    value: float
-
-
-class Coupling(NamedTuple):
-    """A coupling of one H of a signal to ``n_h`` H of another signal, with the typical J (Hz)."""
-
-    signal: int
-    n_h: int
-    j: float
-    kind: str
+"""1H frequency (MHz) assumed when none is given."""
 
 
 @dataclass(frozen=True)
@@ -148,136 +123,6 @@ class Signal:
         }
 
 
-# ----------------------------------------------------------------- tables ----
-
-
-class _Row(NamedTuple):
-    id: str
-    label: str
-    query: Chem.Mol
-    needs: frozenset[int]
-    values: tuple[float | None, ...]
-    sigma_extra: float
-    group: str        # site table: group; alkene/benzene: kind; special: family
-    once: bool = False  # alkyl table: the beta increment counts once per neighbouring carbon
-    table: str = ""
-
-    @property
-    def key(self) -> str:
-        return f"{self.table}:{self.id}"
-
-
-def _number(text: str) -> float | None:
-    return float(text) if text.strip() else None
-
-
-def _compile(table: str, row: dict) -> tuple[Chem.Mol, frozenset[int]]:
-    query = Chem.MolFromSmarts(row["smarts"])
-    if query is None:
-        raise ValueError(f"rules/{table}.tsv row {row['id']}: bad SMARTS {row['smarts']!r}")
-    needs = frozenset(a.GetAtomicNum() for a in query.GetAtoms() if a.GetAtomicNum() > 1)
-    return query, needs
-
-
-def _rows(table: str, columns: tuple[str, ...], group: str | None = None) -> tuple[_Row, ...]:
-    out = []
-    for r in read_table(table):
-        query, needs = _compile(table, r)
-        out.append(_Row(r["id"], r.get("label", r["id"]), query, needs,
-                        tuple(_number(r[c]) for c in columns), float(r["sigma_extra"] or 0),
-                        r[group] if group else "", r.get("beta_once") == "yes", table))
-    return tuple(out)
-
-
-@cache
-def _alkyl_rows() -> tuple[_Row, ...]:
-    return _rows("shift_alkyl", ("alpha_ch3", "alpha_ch2", "alpha_ch", "beta_ch3", "beta_ch2", "beta_ch"))
-
-
-@cache
-def _site_rows() -> tuple[_Row, ...]:
-    return _rows("shift_alkyl_site", ("ch3", "ch2", "ch"), "group")
-
-
-@cache
-def _alkene_rows() -> tuple[_Row, ...]:
-    return _rows("shift_alkene", ("gem", "cis", "trans"), "kind")
-
-
-@cache
-def _benzene_rows() -> tuple[_Row, ...]:
-    return _rows("shift_benzene", ("ortho", "meta", "para"), "kind")
-
-
-@cache
-def _hetero_rows() -> tuple[_Row, ...]:
-    return _rows("shift_heteroaromatic", ("shift",))
-
-
-@cache
-def _special_rows() -> tuple[_Row, ...]:
-    return _rows("shift_special", ("shift", "low", "high"), "family")
-
-
-@cache
-def _sigma() -> dict[str, float]:
-    return {r["family"]: float(r["sigma"]) for r in read_table("sigma")}
-
-
-class _CouplingKind(NamedTuple):
-    j: float
-    observed: str
-
-
-@cache
-def _coupling() -> dict[str, _CouplingKind]:
-    return {r["kind"]: _CouplingKind(float(r["j"]), r["observed"]) for r in read_table("coupling")}
-
-
-@cache
-def _multiplet() -> dict[str, float]:
-    return {r["id"]: float(r["value"]) for r in read_table("multiplet")}
-
-
-@cache
-def _solvent_shifts() -> dict[tuple[str, str], tuple[float, float]]:
-    table: dict[tuple[str, str], tuple[float, float]] = {}
-    for r in read_table("solvent_shift"):
-        table.setdefault((r["solvent"], r["target"]), (float(r["delta"]), float(r["sigma_extra"])))
-    return table
-
-
-def _base(rows: tuple[_Row, ...]) -> _Row:
-    return next(r for r in rows if r.group == "base")
-
-
-# --------------------------------------------------------------- matching ----
-
-
-def _pair_rows(graph: Graph, rows: tuple[_Row, ...]) -> dict[tuple[int, int], _Row]:
-    """First matching row for each (atom 1, atom 2) pair, each pattern matched once."""
-    found: dict[tuple[int, int], _Row] = {}
-    mol, elements = graph.mol, graph.elements
-    for row in rows:
-        if row.group in ("base", "site") or not row.needs <= elements:
-            continue
-        for m in mol.GetSubstructMatches(row.query, uniquify=False, maxMatches=100_000):
-            found.setdefault((m[0], m[1]), row)
-    return found
-
-
-def _atom_rows(graph: Graph, rows: tuple[_Row, ...], groups: bool = False) -> dict:
-    """First matching row for each atom (per group when ``groups``)."""
-    found: dict = {}
-    mol, elements = graph.mol, graph.elements
-    for row in rows:
-        if not row.needs <= elements:
-            continue
-        for m in mol.GetSubstructMatches(row.query, uniquify=False, maxMatches=100_000):
-            found.setdefault((row.group, m[0]) if groups else m[0], row)
-    return found
-
-
 # -------------------------------------------------------------- predictor ----
 
 
@@ -329,7 +174,40 @@ class Predictor:
         list of Signal
             One per proton class (``rank.predict.perceive``); ``partners`` index this list.
         """
-        return _Run(perceive(mol), self._solvent, float(self.field_mhz)).signals()
+        perception = perceive(mol)
+        shifts = ShiftCalculator(perception.graph, self._solvent)
+        predicted = [shifts.predict(draft) for draft in perception.drafts]
+        centres = [p.shift for p in predicted]
+        multiplets = MultipletPredictor(perception, self._solvent, float(self.field_mhz))
+        signals = []
+        for index, (proton_class, shift) in enumerate(zip(perception.classes, predicted)):
+            multiplet = multiplets.predict(index, centres)
+            signals.append(Signal(
+                shift=shift.shift, n_h=proton_class.n_h, multiplicity=multiplet.multiplicity, j=multiplet.j,
+                family=proton_class.family, exchangeable=proton_class.exchangeable, broad=multiplet.broad,
+                atoms=proton_class.atoms, sigma=shift.sigma, terms=shift.terms, partners=multiplet.couplings,
+                diastereotopic=proton_class.diastereotopic, shift_range=shift.shift_range,
+                note=_exchange_note(proton_class, self._solvent), rows=shift.rows,
+            ))
+        return _highest_shift_first(signals)
+
+
+def _exchange_note(proton_class: ProtonClass, solvent: Solvent) -> str:
+    """What to expect of an exchangeable H in the solvent; "" for others."""
+    if not proton_class.exchangeable:
+        return ""
+    if solvent.exchange:
+        return f"exchanges with {solvent.id}; expected absent"
+    return "exchangeable; position varies, may be broad or absent"
+
+
+def _highest_shift_first(signals: list[Signal]) -> list[Signal]:
+    """The signals sorted by shift, highest first (ties in class order), partners renumbered."""
+    order = sorted(range(len(signals)), key=lambda k: -signals[k].shift)
+    new_index = {old: new for new, old in enumerate(order)}
+    return [dataclasses.replace(signals[k], partners=tuple(c._replace(signal=new_index[c.signal])
+                                                           for c in signals[k].partners))
+            for k in order]
 
 
 def signal_table(signals: list[Signal]) -> str:
@@ -354,10 +232,35 @@ def parse_smiles(smiles: str, notes: list[str] | None = None) -> Chem.Mol:
     something to say, a line is appended to ``notes`` if a list is given.  Elements
     other than C, H, N, O, S, P, F, Cl, Br and I, radicals and salts without carbon
     are refused.
+
+    Parameters
+    ----------
+    smiles : str
+        The structure as SMILES.
+    notes : list of str, optional
+        Receives one line when the structure was changed (a salt's component, a neutral form).
+
+    Returns
+    -------
+    rdkit.Chem.Mol
+
+    Raises
+    ------
+    InputError
+        Unreadable SMILES (RDKit's own parse messages are held back; this one line says what
+        to fix), or an unsupported element, radical or salt.
+
+    Examples
+    --------
+    >>> Chem.MolToSmiles(parse_smiles("CC(=O)[O-].[Na+]"))
+    'CC(=O)O'
     """
     from ..standardize import standardize
 
-    mol = Chem.MolFromSmiles(smiles) if isinstance(smiles, str) and smiles.strip() else None
+    mol = None
+    if isinstance(smiles, str) and smiles.strip():
+        with _rdkit_log_held_back():   # the InputError below says what is wrong, on one line
+            mol = Chem.MolFromSmiles(smiles)
     if mol is None or mol.GetNumAtoms() == 0:
         raise InputError(f"{smiles!r} is not a valid SMILES; write e.g. 'CCOC(C)=O' (quote it in the shell)")
     used = standardize(mol, smiles)
@@ -372,282 +275,12 @@ def predict_smiles(smiles: str, solvent: str = "CDCl3") -> list[Signal]:
     return Predictor(solvent).predict(parse_smiles(smiles))
 
 
-# -------------------------------------------------------------- one run ----
-
-
-class _Shift(NamedTuple):
-    terms: list[Term]
-    used: list[_Row]                             # the rows the terms come from
-    target: str                                  # solvent-table target: special row id or family
-    shift_range: tuple[float, float] | None = None
-
-
-def _tidy(terms: list[Term]) -> list[Term]:
-    """Round, drop zeros and fold repeated identical terms into one ('2× β alkyl')."""
-    first, rest = terms[0], terms[1:]
-    folded: dict[tuple[str, float], int] = {}
-    for t in rest:
-        value = round(t.value, 2)
-        if value:
-            folded[(t.name, value)] = folded.get((t.name, value), 0) + 1
-    out = [Term(first.name, round(first.value, 2))]
-    for (name, value), n in folded.items():
-        out.append(Term(name if n == 1 else f"{n}× {name}", round(n * value, 2)))
-    return out
-
-
-class _Run:
-    """The prediction for one molecule in one solvent at one field."""
-
-    def __init__(self, perception: Perception, solvent, field: float) -> None:
-        self.p = perception
-        self.g = perception.graph
-        self.solvent = solvent
-        self.field = field
-        fams = {d.family for d in perception.drafts}
-        self.alkyl = _pair_rows(self.g, _alkyl_rows()) if fams & SP3_FAMILIES else {}
-        self.site = _atom_rows(self.g, _site_rows(), groups=True) if fams & SP3_FAMILIES else {}
-        self.alkene = _pair_rows(self.g, _alkene_rows()) if "alkene" in fams else {}
-        self.alkene_site = _atom_rows(self.g, tuple(r for r in _alkene_rows() if r.group == "site")) \
-            if "alkene" in fams else {}
-        ring = fams & {"aromatic", "heteroaromatic"}
-        self.benzene = _pair_rows(self.g, _benzene_rows()) if ring else {}
-        self.hetero = _atom_rows(self.g, _hetero_rows()) if "heteroaromatic" in fams else {}
-        self.special = _atom_rows(self.g, _special_rows()) if fams - SP3_FAMILIES - {
-            "alkene", "aromatic", "heteroaromatic"} else {}
-
-    # -- shifts ---------------------------------------------------------------
-
-    def _shift(self, d: _Draft) -> _Shift:
-        fam = d.family
-        if fam in SP3_FAMILIES:
-            return self._alkyl_shift(d)
-        if fam == "alkene":
-            return self._alkene_shift(d)
-        if fam in ("aromatic", "heteroaromatic"):
-            return self._ring_shift(d)
-        return self._special_shift(d)
-
-    def _alkyl_shift(self, d: _Draft) -> _Shift:
-        g, c = self.g, d.sites[0].atom
-        t = (2, 1, 0, 0)[min(g.nh[c], 4) - 1]
-        site = self.site
-        base = site[("base", c)]
-        terms, used = [Term(f"{d.family} base", base.values[t])], [base]
-        alphas = []
-        for x in g.bonds[c]:
-            row = self.alkyl.get((c, x))
-            if row is None:
-                continue
-            if row.values[t]:
-                alphas.append((row.values[t], row))
-            else:
-                used.append(row)  # a zero increment (alkyl) or an untabulated substituent
-        alphas.sort(key=lambda vr: -vr[0])
-        damp = site.get(("attenuate_alpha", c))
-        for k, (value, row) in enumerate(alphas):
-            if k and damp is not None:
-                factor = damp.values[t] ** k
-                terms.append(Term(f"α {row.label} (×{factor:.2f})", value * factor))
-                used.append(damp)
-            else:
-                terms.append(Term(f"α {row.label}", value))
-            used.append(row)
-        damp_beta = site.get(("attenuate_beta", c))
-        for y in g.bonds[c]:
-            if not g.sp3(y):
-                continue
-            counted = set()
-            for z in g.bonds[y]:
-                row = self.alkyl.get((y, z)) if z != c else None
-                if row is None or not row.values[3 + t] or row.id in counted:
-                    continue
-                if row.once:
-                    counted.add(row.id)
-                if damp_beta is not None and g.z[z] not in (1, 6):
-                    factor = damp_beta.values[t]
-                    terms.append(Term(f"β {row.label} (×{factor:.2f})", row.values[3 + t] * factor))
-                    used.append(damp_beta)
-                else:
-                    terms.append(Term(f"β {row.label}", row.values[3 + t]))
-                used.append(row)
-        for group in ("methane", "ring", "acetal"):
-            row = site.get((group, c))
-            if row is not None and row.values[t] is not None:
-                terms.append(Term(row.label, row.values[t]))
-                used.append(row)
-        if d.rotamer is not None:
-            row = site.get(("rotamer", c))
-            if row is not None and row.values[t] is not None:
-                terms.append(Term(f"{row.label} (branch {'A' if d.rotamer.side > 0 else 'B'})",
-                                  d.rotamer.side * row.values[t]))
-                used.append(row)
-        return _Shift(terms, used, d.family)
-
-    def _alkene_shift(self, d: _Draft) -> _Shift:
-        g, a = self.g, d.sites[0].atom
-        b = next(j for j, o in g.bonds[a].items() if o == 2.0)
-        base = _base(_alkene_rows())
-        terms, used = [Term("alkene base", base.values[0])], [base]
-        for x in g.bonds[a]:
-            if x != b and (row := self.alkene.get((a, x))) is not None:
-                terms.append(Term(f"gem {row.label}", row.values[0]))
-                used.append(row)
-        for y in g.bonds[b]:
-            if y != a and (row := self.alkene.get((b, y))) is not None:
-                if y == d.cis_to:
-                    terms.append(Term(f"cis {row.label}", row.values[1]))
-                else:
-                    terms.append(Term(f"trans {row.label}", row.values[2]))
-                used.append(row)
-        row = self.alkene_site.get(a)
-        if row is not None:
-            terms.append(Term(row.label, row.values[0]))
-            used.append(row)
-        return _Shift(terms, used, d.family)
-
-    def _ring_shift(self, d: _Draft) -> _Shift:
-        g, h = self.g, d.sites[0].atom
-        hetero = d.family == "heteroaromatic"
-        rings = [r for r in g.rings if h in r and all(g.aromatic[x] for x in r)]
-        if hetero:
-            rings = [r for r in rings if any(g.z[x] != 6 for x in r)] or rings
-        else:
-            rings = [r for r in rings if all(g.z[x] == 6 for x in r)] or rings
-        ring = min(rings, key=len) if rings else (h,)
-        if hetero:
-            row = self.hetero[h]
-            terms, used = [Term(row.label, row.values[0])], [row]
-        else:
-            base = _base(_benzene_rows())
-            terms, used = [Term("benzene base", base.values[0])], [base]
-        size, p = len(ring), ring.index(h)
-        where = ("ortho", "meta", "para")
-        for q, r in enumerate(ring):
-            if r == h:
-                continue
-            dist = min(min(abs(q - p), size - abs(q - p)), 3)
-            for x in g.bonds[r]:
-                if x in ring or (row := self.benzene.get((r, x))) is None:
-                    continue
-                if row.values[dist - 1]:
-                    terms.append(Term(f"{where[dist - 1]} {row.label}", row.values[dist - 1]))
-                used.append(row)
-        return _Shift(terms, used, d.family)
-
-    def _special_shift(self, d: _Draft) -> _Shift:
-        row = self.special.get(d.sites[0].atom)
-        if row is None:
-            raise ValueError(f"rules/shift_special.tsv has no row for a {d.family} hydrogen; "
-                             "its last row should match any atom carrying H")
-        shift, low, high = row.values
-        span = None if low is None or high is None else (low, high)
-        return _Shift([Term(row.label, shift)], [row], row.id, span)
-
-    def _solvent_term(self, fam: str, target: str) -> tuple[Term | None, float, str | None]:
-        table, sid = _solvent_shifts(), self.solvent.id
-        # exchangeable H move by their own rows only; the family and * rows describe C-H
-        for key in (target,) if fam in EXCHANGEABLE else (target, fam, "*"):
-            found = table.get((sid, key))
-            if found is not None:
-                delta, extra = found
-                term = Term(f"solvent {sid}", delta) if delta else None
-                return term, extra, f"solvent_shift:{sid}/{key}"
-        return None, 0.0, None
-
-    # -- multiplicity -----------------------------------------------------------
-
-    def _observed(self, kind: str) -> bool:
-        rule = _coupling()[kind].observed
-        if rule == "all":
-            return True
-        if rule == "no_exchange":
-            return not self.solvent.exchange
-        return self.solvent.id in {s.strip() for s in rule.split(",")}
-
-    def _pattern(self, i: int, shifts: list[float], couplings: list[Coupling]) -> tuple[str, tuple[float, ...]]:
-        params = _multiplet()
-        d, g = self.p.drafts[i], self.g
-        resolved = [c for c in couplings if c.j >= params["min_resolved_j"]]
-        if not resolved:
-            return "s", ()
-        groups: list[list[float]] = []   # [J, n] merged by J
-        for c in sorted(resolved, key=lambda c: -c.j):
-            if groups and groups[-1][0] - c.j < params["merge_j"]:
-                j0, n0 = groups[-1]
-                groups[-1] = [(j0 * n0 + c.j * c.n_h) / (n0 + c.n_h), n0 + c.n_h]
-            else:
-                groups.append([c.j, c.n_h])
-        js = tuple(round(j, 1) for j, _ in groups)
-        for c in resolved:
-            if abs(shifts[i] - shifts[c.signal]) * self.field < params["first_order_ratio"] * c.j:
-                return "m", js
-        if params["ring_sp3_multiplet"] and d.family in SP3_FAMILIES:
-            a = d.sites[0].atom
-            low, high = params["ring_sp3_min_size"], params["ring_sp3_max_size"]
-            ring = next((r for r in g.rings if a in r and low <= len(r) <= high), None)
-            if ring is not None and any(
-                self.p.drafts[c.signal].family in SP3_FAMILIES
-                and any(s.atom in ring for s in self.p.drafts[c.signal].sites) for c in resolved
-            ):
-                return "m", js
-        sizes = [int(n) for _, n in groups]
-        if len(groups) > params["max_groups"]:
-            return "m", js
-        names = {1: "d", 2: "t", 3: "q", 4: "quint", 5: "sext", 6: "sept"}
-        if len(groups) == 1:
-            n = sizes[0]
-            return (names[n] if n <= params["max_group_size"] else "m"), js
-        if any(n > 3 for n in sizes):
-            return "m", js
-        return "".join(names[n] for n in sizes), js
-
-    # -- assembly ---------------------------------------------------------------
-
-    def signals(self) -> list[Signal]:
-        drafts, classes = self.p.drafts, self.p.classes
-        sigma_table = _sigma()
-        shifts, rows = [], []
-        for d in drafts:
-            s = self._shift(d)
-            term, solvent_extra, solvent_key = self._solvent_term(d.family, s.target)
-            terms = _tidy(s.terms + ([term] if term else []))
-            shift = round(sum(t.value for t in terms), 2)
-            distinct = {r.key: r for r in s.used}   # a row used twice adds its doubt once
-            spread = [sigma_table.get(d.family, 0.5), solvent_extra, *(r.sigma_extra for r in distinct.values())]
-            sigma = round(math.sqrt(sum(x * x for x in spread)), 2)
-            keys = tuple(distinct) + ((solvent_key,) if solvent_key else ())
-            shifts.append(shift)
-            rows.append((terms, sigma, s.shift_range, keys))
-        out = []
-        for i, (d, cls) in enumerate(zip(drafts, classes)):
-            couplings = [Coupling(p.cls, p.n_h, _coupling()[p.kind].j, p.kind)
-                         for p in cls.partners if self._observed(p.kind)]
-            terms, sigma, span, keys = rows[i]
-            note = ""
-            if cls.exchangeable:
-                if self.solvent.exchange:
-                    note = f"exchanges with {self.solvent.id}; expected absent"
-                else:
-                    note = "exchangeable; position varies, may be broad or absent"
-            if cls.exchangeable and (cls.family in ("NH", "COOH") or not any(
-                    c.j >= _multiplet()["min_resolved_j"] for c in couplings)):
-                mult, js, broad = "br s", (), True
-            else:
-                mult, js = self._pattern(i, shifts, couplings)
-                broad = False
-            out.append(Signal(shifts[i], cls.n_h, mult, js, cls.family, cls.exchangeable, broad,
-                              cls.atoms, sigma, tuple(terms), tuple(couplings), cls.diastereotopic,
-                              span, note, keys))
-        order = sorted(range(len(out)), key=lambda k: -out[k].shift)
-        new = {old: k for k, old in enumerate(order)}
-        return [_renumber(out[k], new) for k in order]
-
-
-def _renumber(s: Signal, new: dict[int, int]) -> Signal:
-    partners = tuple(c._replace(signal=new[c.signal]) for c in s.partners)
-    return Signal(s.shift, s.n_h, s.multiplicity, s.j, s.family, s.exchangeable, s.broad, s.atoms,
-                  s.sigma, s.terms, partners, s.diastereotopic, s.shift_range, s.note, s.rows)
-
-
-__all__ = ["Coupling", "Predictor", "Signal", "Term", "parse_smiles", "predict_smiles", "signal_table"]
+@contextmanager
+def _rdkit_log_held_back() -> Iterator[None]:
+    """Hold back RDKit's log lines inside the block (e.g. the several lines of a SMILES parse
+    error), restoring the logs' previous state after it."""
+    blocker = rdBase.BlockLogs()
+    try:
+        yield
+    finally:
+        del blocker
