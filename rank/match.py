@@ -18,17 +18,26 @@ The misfit of a candidate is
                  predicted pattern with and without its couplings under hidden_j,
                  against the observed one with and without its couplings under
                  small_observed_j; nothing when the multiplicity was not reported)
-               + 0.5 per sharp singlet holding two classes coupled to each other
-               + 0.5 per multiplet holding nothing but one uncoupled class)
-    J = w_J · Σ_classes coupling-constant penalty (0..1)           J values
-               (an observed J under small_observed_j with no predicted partner is left out)
+               + coupled_singlet per sharp singlet holding two classes coupled to each
+                 other by coupled_singlet_min_j Hz or more
+               + lone_singlet_multiplet per multiplet holding nothing but one uncoupled class)
+    J = w_J · Σ_classes coupling-constant penalty (0..1: the gap beyond j_tolerance Hz
+               in j_step Hz steps; an observed J under small_observed_j with no predicted
+               partner is left out)
     C = w_C · (observed peaks left empty + predicted groups beyond one per peak)
 
-δ_obs is the nearest point of the observed peak or range; σ is the
+δ_obs is the nearest point of the observed peak or range (0 residual inside a range); σ is the
 prediction's uncertainty.  Predicted signals placed in one peak form one group
 when they lie within ``group_gap`` ppm (plus the peak's width) of each other,
 as overlapping lines merge in a real spectrum; more groups in one peak mean the
 candidate predicts more resolved signals than were seen.
+
+>>> from rank.predict import predict_smiles
+>>> from rank.spectra import parse_peak_text
+>>> peaks = parse_peak_text("4.12 (q, J = 7.1 Hz, 2H), 2.05 (s, 3H), 1.26 (t, J = 7.1 Hz, 3H)").peaks
+>>> m = match(predict_smiles("CCOC(C)=O"), peaks, (2, 3, 3), 0, False)
+>>> [(p.peak, round(p.z, 2)) for p in m.pairings], float(m.misfit)
+([(0, 0.25), (1, 0.0), (2, 0.0)], 0.015625)
 """
 
 from __future__ import annotations
@@ -36,30 +45,59 @@ from __future__ import annotations
 from dataclasses import dataclass
 from functools import cache
 from itertools import pairwise
-from typing import NamedTuple
+from typing import TYPE_CHECKING, NamedTuple
 
 import numpy as np
 from scipy.optimize import linear_sum_assignment
 
 from .spectra import Peak, coupling_groups
 
+if TYPE_CHECKING:
+    from collections.abc import Sequence
+
+    from .predict import Signal
+
+__all__ = [
+    "DEFAULT_SETTINGS", "Match", "MisfitParts", "Pairing", "Settings", "coupling_penalty", "match",
+    "multiplicity_penalty", "without_small_couplings",
+]
+
 
 @dataclass(frozen=True)
 class Settings:
-    """Weights of the misfit (see the module docstring)."""
+    """Weights and tolerances of the misfit (see the module docstring); each field says its unit."""
 
     z_cap: float = 9.0
+    """Largest squared residual one proton adds to S (a 3 σ miss): one far-off shift does not swamp the rest."""
     w_integral: float = 1.0
+    """Weight of I, per proton placed outside its class's main peak."""
     w_multiplicity: float = 1.0
+    """Weight of M."""
     w_coupling: float = 0.5
+    """Weight of J."""
     w_count: float = 0.5
+    """Weight of C, per empty peak or extra group in a peak."""
     group_gap: float = 0.12
+    """ppm: predicted signals placed in one peak closer than this (plus the peak's width) form one group."""
     absent_exchangeable: float = 0.5
+    """Cost of one exchangeable proton left unobserved (OH, NH, SH, COOH are often broad or missing)."""
     absent_other: float = 25.0
+    """Cost of one C-H proton left unobserved."""
     observed_exchanged: float = 4.0
+    """Cost of one exchangeable proton placed in a peak in a solvent that exchanges it away (D2O, CD3OD)."""
     j_tolerance: float = 1.5
+    """Hz: an observed J within this of the nearest predicted J costs nothing."""
+    j_step: float = 3.0
+    """Hz: beyond ``j_tolerance``, an observed J's coupling penalty grows by 1 per this many Hz, up to 1,
+    so a miss of ``j_tolerance + j_step`` Hz or more costs the whole penalty (a scoring choice of this
+    program, not a chemical constant)."""
     coupled_singlet: float = 0.5
+    """Multiplicity penalty of a sharp singlet holding two classes coupled to each other."""
+    coupled_singlet_min_j: float = 3.0
+    """Hz: two classes in one singlet count as coupled to each other from this J up; non-equivalent H
+    coupled by a few Hz or more do not give a sharp singlet (common practice)."""
     lone_singlet_multiplet: float = 0.5
+    """Multiplicity penalty of a multiplet holding nothing but one uncoupled class."""
     hidden_j: float = 2.5
     """Predicted couplings below this many Hz may go unreported: a meta coupling makes a
     predicted dd that papers write as d (common practice); the pattern without them costs nothing."""
@@ -73,11 +111,25 @@ DEFAULT_SETTINGS = Settings()
 
 
 class Pairing(NamedTuple):
-    """One predicted signal and the observed peak holding most of its protons."""
+    """One predicted signal and the observed peak holding most of its protons.
+
+    Attributes
+    ----------
+    signal : index of the predicted signal.
+    peak : index of the peak; None when the signal was left unobserved.
+    protons : protons of the signal placed in that peak.
+    observed : the peak's shift (the centre of a range), ppm; None when unobserved.
+    predicted : the signal's predicted shift, ppm.
+    z : the residual scored for this peak, in units of the signal's σ: signed, observed minus
+        predicted, measured from the nearest point of the peak (its edge for a range, 0 inside
+        it); S adds min(z², ``z_cap``) per proton placed there.  0 when unobserved.
+    multiplicity_penalty : the multiplicity penalty of the signal in that peak (before ``w_multiplicity``).
+    coupling_penalty : the coupling-constant penalty (before ``w_coupling``).
+    """
 
     signal: int
-    peak: int | None          # None: not observed
-    protons: int               # protons of the signal placed in that peak
+    peak: int | None
+    protons: int
     observed: float | None
     predicted: float
     z: float
@@ -86,6 +138,8 @@ class Pairing(NamedTuple):
 
 
 class MisfitParts(NamedTuple):
+    """The weighted parts S, I, M, J and C of the misfit (see the module docstring)."""
+
     shift: float
     integral: float
     multiplicity: float
@@ -94,6 +148,7 @@ class MisfitParts(NamedTuple):
 
     @property
     def total(self) -> float:
+        """S + I + M + J + C."""
         return self.shift + self.integral + self.multiplicity + self.coupling + self.count
 
 
@@ -103,12 +158,6 @@ class Match(NamedTuple):
     misfit: float
     parts: MisfitParts
     pairings: tuple[Pairing, ...]
-
-
-def _distance(signal_shift: float, peak: Peak) -> float:
-    if peak.low <= signal_shift <= peak.high:
-        return 0.0
-    return min(abs(signal_shift - peak.low), abs(signal_shift - peak.high))
 
 
 @cache
@@ -158,14 +207,17 @@ def without_small_couplings(multiplicity: str | None, j: tuple[float, ...], belo
 
 
 def coupling_penalty(observed: tuple[float, ...], predicted: tuple[float, ...], tolerance: float,
-                     small: float = 0.0) -> float:
-    """Mean over observed J of how far the nearest predicted J lies beyond ``tolerance`` Hz, in 3 Hz steps.
+                     small: float = 0.0, step: float = DEFAULT_SETTINGS.j_step) -> float:
+    """Mean over observed J of how far the nearest predicted J lies beyond ``tolerance`` Hz, in ``step`` Hz steps.
 
-    An observed J below ``small`` Hz with no predicted J within ``tolerance`` is a long-range
-    coupling the prediction lacks: it is left out of the mean.
+    Each observed J costs min(1, max(0, gap - tolerance) / step).  An observed J below ``small``
+    Hz with no predicted J within ``tolerance`` is a long-range coupling the prediction lacks:
+    it is left out of the mean.
 
     >>> coupling_penalty((15.6, 1.7), (15.6,), 1.5, small=3.0)
     0.0
+    >>> coupling_penalty((10.5,), (16.5,), 1.5)
+    1.0
     """
     if not observed or not predicted:
         return 0.0
@@ -173,67 +225,68 @@ def coupling_penalty(observed: tuple[float, ...], predicted: tuple[float, ...], 
     counted = [g for j, g in zip(observed, gaps) if not (j < small and g > tolerance)]
     if not counted:
         return 0.0
-    return sum(min(1.0, max(0.0, g - tolerance) / 3.0) for g in counted) / len(counted)
+    return sum(min(1.0, max(0.0, g - tolerance) / step) for g in counted) / len(counted)
 
 
-def _mutually_coupled(signals, held: list[int]) -> bool:
-    """True when two of the signals placed in one peak couple to each other with J >= 3 Hz:
+def _mutually_coupled(signals: Sequence[Signal], held: list[int], min_j: float) -> bool:
+    """True when two of the signals placed in one peak couple to each other with J >= ``min_j`` Hz:
     non-equivalent coupled H do not give a sharp singlet (common practice)."""
     inside = set(held)
-    return any(c.signal in inside and c.signal != i and c.j >= 3.0
-               for i in held for c in getattr(signals[i], "partners", ()))
+    return any(c.signal in inside and c.signal != i and c.j >= min_j
+               for i in held for c in signals[i].partners)
 
 
-def _groups(shifts: list[float], gap: float) -> int:
+def _group_count(shifts: list[float], gap: float) -> int:
+    """How many groups shifts fall into when neighbours closer than ``gap`` ppm merge."""
     if not shifts:
         return 0
     ordered = sorted(shifts)
     return 1 + sum(1 for a, b in pairwise(ordered) if b - a > gap)
 
 
-def match(signals, peaks: tuple[Peak, ...], counts: tuple[int, ...], missing: int,
-          exchange_absent: bool, settings: Settings = DEFAULT_SETTINGS) -> Match:
-    """Assign predicted signals to observed peaks.
+class _Costs(NamedTuple):
+    """Signal-by-peak scores, and the proton-by-slot cost matrix the assignment minimises."""
 
-    Parameters
-    ----------
-    signals : sequence of predicted signals (``rank.predict.Signal``): shift,
-        n_h, sigma, multiplicity, j, exchangeable.
-    peaks : the observed peaks (solvent signals already dropped).
-    counts : whole-number H per peak (a ``Normalisation``); all 0 when the
-        list had no integrals, and then every peak may hold any number of H.
-    missing : hydrogens of the formula not observed.
-    exchange_absent : True in D2O or CD3OD, where OH/NH/COOH exchange away.
+    residual: np.ndarray          # signals x peaks: (nearest point of the peak - shift) / sigma
+    z2: np.ndarray                # signals x peaks: min(residual ** 2, z_cap)
+    multiplicity: np.ndarray      # signals x peaks: multiplicity penalty
+    coupling: np.ndarray          # signals x peaks: coupling penalty
+    matrix: np.ndarray            # one row per proton, one column per slot of a peak or per absence
+    rows: list[int]               # the signal of each row
+    columns: list[int | None]     # the peak of each column (None: unobserved)
 
-    Returns
-    -------
-    Match
+
+def _cost_matrix(signals: Sequence[Signal], peaks: tuple[Peak, ...], counts: tuple[int, ...], missing: int,
+                 exchange_absent: bool, settings: Settings) -> _Costs:
+    """Cost of placing one proton of each signal in each peak, or leaving it unobserved.
+
+    A peak of count n offers n slots (every peak offers one per proton when there are no integrals);
+    ``missing`` slots (every proton's, without integrals) stand for unobserved protons.
     """
     rows = [i for i, s in enumerate(signals) for _ in range(s.n_h)]
     n_h = len(rows)
-    no_integrals = not any(counts)
-    if no_integrals:
-        capacity = [n_h] * len(peaks)
-        absent = n_h
+    if not any(counts):
+        capacity, absent = [n_h] * len(peaks), n_h
     else:
-        capacity = list(counts)
-        absent = missing
-    cols = [p for p, c in enumerate(capacity) for _ in range(c)] + [None] * absent
+        capacity, absent = list(counts), missing
+    columns = [p for p, c in enumerate(capacity) for _ in range(c)] + [None] * absent
 
     n_sig, n_peaks = len(signals), len(peaks)
     shifts = np.array([sg.shift for sg in signals])
     sigmas = np.array([sg.sigma for sg in signals])
     lows = np.array([pk.low for pk in peaks])
     highs = np.array([pk.high for pk in peaks])
-    distance = np.maximum(np.maximum(lows[None, :] - shifts[:, None], shifts[:, None] - highs[None, :]), 0.0)
-    z2 = np.minimum((distance / sigmas[:, None]) ** 2, settings.z_cap)
+    nearest = np.clip(shifts[:, None], lows[None, :], highs[None, :])
+    residual = (nearest - shifts[:, None]) / sigmas[:, None]
+    z2 = np.minimum(residual ** 2, settings.z_cap)
     coarse = [without_small_couplings(sg.multiplicity, sg.j, settings.hidden_j) for sg in signals]
     seen = [{pk.multiplicity, without_small_couplings(pk.multiplicity, pk.j, settings.small_observed_j)}
             for pk in peaks]
     pen_mult = np.array([[min(multiplicity_penalty(o, p, sg.exchangeable) for o in forms
                               for p in (sg.multiplicity, rough))
                           for forms in seen] for sg, rough in zip(signals, coarse)]).reshape(n_sig, n_peaks)
-    pen_j = np.array([[coupling_penalty(pk.j, sg.j, settings.j_tolerance, settings.small_observed_j)
+    pen_j = np.array([[coupling_penalty(pk.j, sg.j, settings.j_tolerance, settings.small_observed_j,
+                                        settings.j_step)
                        if pk.j and sg.j else 0.0
                        for pk in peaks] for sg in signals]).reshape(n_sig, n_peaks)
     exchangeable = np.array([sg.exchangeable for sg in signals])
@@ -248,48 +301,53 @@ def match(signals, peaks: tuple[Peak, ...], counts: tuple[int, ...], missing: in
                            settings.absent_other)
     by_signal = np.hstack([np.repeat(per_peak, capacity, axis=1),
                            np.repeat(absent_cost[:, None], absent, axis=1)])
-    cost = by_signal[rows]
-    row_ind, col_ind = linear_sum_assignment(cost)
+    return _Costs(residual, z2, pen_mult, pen_j, by_signal[rows], rows, columns)
 
+
+def _decode(costs: _Costs) -> dict[int, dict[int | None, int]]:
+    """Protons of each signal placed in each peak (None: unobserved) by the cheapest assignment,
+    peaks in the order first reached."""
     placed: dict[int, dict[int | None, int]] = {}
-    for r, c in zip(row_ind, col_ind):
-        placed.setdefault(rows[r], {}).setdefault(cols[c], 0)
-        placed[rows[r]][cols[c]] += 1
+    for r, c in zip(*linear_sum_assignment(costs.matrix)):
+        where = placed.setdefault(costs.rows[r], {})
+        peak = costs.columns[c]
+        where[peak] = where.get(peak, 0) + 1
+    return placed
 
+
+def _score(signals: Sequence[Signal], peaks: tuple[Peak, ...], placed: dict[int, dict[int | None, int]],
+           costs: _Costs, observed_h: int, settings: Settings) -> Match:
+    """The misfit of an assignment, its parts and one :class:`Pairing` per signal."""
     pairings, shift_sum, integral, mult, coup = [], 0.0, 0.0, 0.0, 0.0
-    by_peak: dict[int, list[float]] = {}
-    members: dict[int, list[int]] = {}
+    members: dict[int, list[int]] = {}   # peak -> the signals whose main peak it is
     for i, s in enumerate(signals):
         where = placed.get(i, {None: s.n_h})
         main, protons = max(where.items(), key=lambda kv: (kv[1], kv[0] is not None))
         split = s.n_h - protons
-        if split and getattr(s, "diastereotopic", False) and len(where) == 2 and None not in where:
-            split = 0
+        if split and s.diastereotopic and len(where) == 2 and None not in where:
+            split = 0   # a diastereotopic CH2 seen as two signals
         integral += split
         for p, k in where.items():
             if p is None:
                 shift_sum += k * (0.0 if s.exchangeable else settings.z_cap)
             else:
-                shift_sum += k * z2[i, p]
+                shift_sum += k * costs.z2[i, p]
         if main is None:
             pairings.append(Pairing(i, None, protons, None, s.shift, 0.0, 0.0, 0.0))
             continue
-        by_peak.setdefault(main, []).append(s.shift)
         members.setdefault(main, []).append(i)
-        peak = peaks[main]
-        z = (peak.shift - s.shift) / s.sigma if _distance(s.shift, peak) else 0.0
-        mult += pen_mult[i, main]
-        coup += pen_j[i, main]
-        pairings.append(Pairing(i, main, protons, peak.shift, s.shift, z,
-                                float(pen_mult[i, main]), float(pen_j[i, main])))
+        mult += costs.multiplicity[i, main]
+        coup += costs.coupling[i, main]
+        pairings.append(Pairing(i, main, protons, peaks[main].shift, s.shift, float(costs.residual[i, main]),
+                                float(costs.multiplicity[i, main]), float(costs.coupling[i, main])))
     mult += sum(settings.coupled_singlet for p, held in members.items()
-                if peaks[p].multiplicity == "s" and _mutually_coupled(signals, held))
+                if peaks[p].multiplicity == "s" and _mutually_coupled(signals, held, settings.coupled_singlet_min_j))
     mult += sum(settings.lone_singlet_multiplet for p, held in members.items()
                 if peaks[p].multiplicity == "m" and len(held) == 1
                 and signals[held[0]].multiplicity == "s" and not signals[held[0]].exchangeable)
-    observed_h = max(n_h - missing, 1) if not no_integrals else max(n_h, 1)
-    count = len(peaks) - len(by_peak) + sum(
-        _groups(shifts, settings.group_gap + peaks[p].high - peaks[p].low) - 1 for p, shifts in by_peak.items()
+    count = len(peaks) - len(members) + sum(
+        _group_count([signals[i].shift for i in held], settings.group_gap + peaks[p].high - peaks[p].low) - 1
+        for p, held in members.items()
     )
     parts = MisfitParts(
         shift=shift_sum / observed_h,
@@ -299,3 +357,47 @@ def match(signals, peaks: tuple[Peak, ...], counts: tuple[int, ...], missing: in
         count=settings.w_count * count,
     )
     return Match(round(parts.total, 6), parts, tuple(pairings))
+
+
+def match(signals: Sequence[Signal], peaks: tuple[Peak, ...], counts: tuple[int, ...], missing: int,
+          exchange_absent: bool, settings: Settings = DEFAULT_SETTINGS) -> Match:
+    """Assign predicted signals to observed peaks and score the assignment.
+
+    Parameters
+    ----------
+    signals : sequence of rank.predict.Signal
+        The predicted signals (shift, n_h, sigma, multiplicity, j, exchangeable, partners,
+        diastereotopic are read).
+    peaks : tuple of rank.spectra.Peak
+        The observed peaks (solvent signals already dropped).
+    counts : tuple of int
+        Whole-number H per peak (a ``Normalisation``); all 0 when the list had no integrals,
+        and then every peak may hold any number of H.
+    missing : int
+        Hydrogens of the formula not observed.
+    exchange_absent : bool
+        True in D2O or CD3OD, where OH/NH/COOH exchange away.
+    settings : Settings
+        Weights and tolerances; default :data:`DEFAULT_SETTINGS`.
+
+    Returns
+    -------
+    Match
+        The misfit (rounded to 6 decimals), its parts and one pairing per signal.
+
+    Notes
+    -----
+    One row per predicted proton, one column per observed proton or allowed absence; the
+    cheapest one-to-one assignment is found by the Hungarian algorithm (scipy's
+    ``linear_sum_assignment``), then scored (module docstring).
+
+    References
+    ----------
+    H. W. Kuhn, "The Hungarian method for the assignment problem", Naval Res. Logist. Q. 1955,
+    2, 83. doi:10.1002/nav.3800020109
+    """
+    costs = _cost_matrix(signals, peaks, counts, missing, exchange_absent, settings)
+    placed = _decode(costs)
+    n_h = len(costs.rows)
+    observed_h = max(n_h, 1) if not any(counts) else max(n_h - missing, 1)
+    return _score(signals, peaks, placed, costs, observed_h, settings)

@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import csv
 import itertools
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -207,6 +208,14 @@ def test_coupling_penalty_grows_with_the_gap_beyond_tolerance():
     assert coupling_penalty((16.0,), (), tol) == 0  # no predicted J: nothing to compare
 
 
+def test_coupling_penalty_grows_by_one_per_step_beyond_tolerance():
+    # Settings.j_step: half a step beyond the tolerance costs half the penalty; a whole step, all of it
+    tol, step = DEFAULT_SETTINGS.j_tolerance, DEFAULT_SETTINGS.j_step
+    assert coupling_penalty((10.0,), (10.0 + tol + step / 2,), tol) == pytest.approx(0.5)
+    assert coupling_penalty((10.0,), (10.0 + tol + 2 * step,), tol) == 1.0
+    assert coupling_penalty((10.0,), (10.0 + tol + step / 2,), tol, step=step / 2) == pytest.approx(1.0)
+
+
 # -------------------------------------------------------------- misfit parts ----
 
 SUM_CASES = [
@@ -254,6 +263,43 @@ def test_shift_part_is_the_mean_capped_squared_residual(row_id, smiles):
     )
     n_h = sum(s.n_h for s in signals)
     assert m.parts.shift == pytest.approx(total / n_h, abs=1e-9)
+
+
+def test_z_of_a_range_is_the_signed_residual_from_its_nearest_edge():
+    # ethylbenzene with its ring multiplet written as a narrow range (CDCl3 values from memory): the
+    # ring classes predicted at 7.30, 7.22 and 7.19 lie above, inside and below 7.25-7.20; the residual is
+    # to the nearest point of the range (rank.match docstring), observed minus predicted, 0 inside
+    peaks = parse_peak_text("7.25-7.20 (m, 5H), 2.65 (q, J = 7.6 Hz, 2H), 1.24 (t, J = 7.6 Hz, 3H)").peaks
+    signals = predict_smiles("CCc1ccccc1")
+    m = match(signals, peaks, (5, 2, 3), 0, False)
+    ring = {signals[p.signal].shift: p for p in m.pairings if p.peak == 0}
+    assert set(ring) == {7.30, 7.22, 7.19}
+    assert ring[7.30].z == pytest.approx((7.25 - 7.30) / signals[ring[7.30].signal].sigma)
+    assert ring[7.22].z == 0.0
+    assert ring[7.19].z == pytest.approx((7.20 - 7.19) / signals[ring[7.19].signal].sigma)
+    # the printed z is the scored one: S is the mean over protons of the capped z squared
+    cap = DEFAULT_SETTINGS.z_cap
+    assert all(p.protons == signals[p.signal].n_h for p in m.pairings)
+    assert m.parts.shift == pytest.approx(sum(p.protons * min(p.z ** 2, cap) for p in m.pairings) / 10, abs=1e-12)
+
+
+def test_z_of_a_single_shift_is_the_residual_to_it():
+    # known.tsv bromoethane: a peak given as one value is its own nearest point
+    signals, peaks, m = _match("CCBr", "bromoethane")
+    for p in m.pairings:
+        s = signals[p.signal]
+        assert p.z == pytest.approx((peaks[p.peak].shift - s.shift) / s.sigma, abs=1e-12)
+
+
+def test_coupled_singlet_counts_couplings_from_its_settings_threshold():
+    # 1,1-dichloroethane in the 3.73 singlet of known.tsv dichloroethane: CH3 and CH couple by the
+    # vic_sp3 J of coupling.tsv (7.0 Hz), counted from Settings.coupled_singlet_min_j (3 Hz) up
+    peaks, counts, missing = _observed("dichloroethane")
+    signals = predict_smiles("CC(Cl)Cl")
+    default = match(signals, peaks, counts, missing, False)
+    above = match(signals, peaks, counts, missing, False, replace(DEFAULT_SETTINGS, coupled_singlet_min_j=8.0))
+    assert default.parts.multiplicity - above.parts.multiplicity == pytest.approx(
+        DEFAULT_SETTINGS.w_multiplicity * DEFAULT_SETTINGS.coupled_singlet)
 
 
 # --------------------------------------------------------- optimal assignment ----
