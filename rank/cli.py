@@ -199,7 +199,7 @@ def _run_bench(args: argparse.Namespace) -> int:
     outcomes = []
     print(f"{'id':<14} {'rank':>5} {'scored':>8} {'seconds':>8}  name")
     for case in cases:
-        o = run_case(case, library, use_hints=not args.no_hints, workers=workers, budget=args.budget,
+        o = run_case(case, library=library, use_hints=not args.no_hints, workers=workers, budget=args.budget,
                      ceiling=DEFAULT_CEILING if args.ceiling is None else args.ceiling)
         outcomes.append(o)
         rank = "-" if o.rank is None else str(o.rank)
