@@ -36,16 +36,12 @@ from dataclasses import dataclass
 from rdkit import Chem, rdBase
 
 from ..errors import InputError
-from ..spectra import Solvent, find_solvent
+from ..spectra import DEFAULT_FIELD_MHZ, DEFAULT_SOLVENT, Solvent, find_solvent
 from .multiplets import Coupling, MultipletPredictor
 from .perceive import ProtonClass, perceive
 from .shifts import ShiftCalculator, Term
 
 __all__ = ["Coupling", "Predictor", "Signal", "Term", "parse_smiles", "predict_smiles", "signal_table"]
-
-DEFAULT_FIELD_MHZ = 400.0
-"""1H frequency (MHz) assumed when none is given."""
-
 
 @dataclass(frozen=True)
 class Signal:
@@ -133,9 +129,10 @@ class Predictor:
     ----------
     solvent : str
         A solvent of ``rules/solvents.tsv`` by id or alias (CDCl3, DMSO-d6, CD3OD,
-        D2O, acetone-d6, C6D6, CD3CN, CD2Cl2).
+        D2O, acetone-d6, C6D6, CD3CN, CD2Cl2); default ``rank.spectra.DEFAULT_SOLVENT`` (CDCl3).
     field_mhz : float
-        Spectrometer frequency for 1H, used to judge when couplings are first order.
+        Spectrometer frequency for 1H, used to judge when couplings are first order; default
+        ``rank.spectra.DEFAULT_FIELD_MHZ`` (400).
 
     Raises
     ------
@@ -149,7 +146,7 @@ class Predictor:
     ['q', 't']
     """
 
-    def __init__(self, solvent: str = "CDCl3", field_mhz: float = DEFAULT_FIELD_MHZ) -> None:
+    def __init__(self, solvent: str = DEFAULT_SOLVENT, field_mhz: float = DEFAULT_FIELD_MHZ) -> None:
         self.solvent = solvent
         self.field_mhz = field_mhz
         self._solvent = find_solvent(solvent)
@@ -270,8 +267,9 @@ def parse_smiles(smiles: str, notes: list[str] | None = None) -> Chem.Mol:
     return used.mol if used.mixture or used.neutralised else mol
 
 
-def predict_smiles(smiles: str, solvent: str = "CDCl3") -> list[Signal]:
-    """The predicted signals of a SMILES (400 MHz); InputError on invalid SMILES or unknown solvent."""
+def predict_smiles(smiles: str, solvent: str = DEFAULT_SOLVENT) -> list[Signal]:
+    """The predicted signals of a SMILES (at ``rank.spectra.DEFAULT_FIELD_MHZ``, 400 MHz); InputError on
+    invalid SMILES or unknown solvent."""
     return Predictor(solvent).predict(parse_smiles(smiles))
 
 
