@@ -26,7 +26,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import NamedTuple
 
-from rdkit import Chem
+from rdkit import Chem, rdBase
 from rdkit.Chem import rdMolDescriptors
 
 from .errors import InputError
@@ -214,12 +214,16 @@ def _predictor(solvent: str, field_mhz: float) -> Predictor:
 def score(smiles: str, observation: Observation, settings: Settings = DEFAULT_SETTINGS) -> Scored | None:
     """Predict a candidate's spectrum and match it to the observation.
 
-    A pure function of its arguments; returns None for a SMILES RDKit cannot read.
+    A pure function of its arguments; returns None for a SMILES RDKit cannot read
+    and for a structure the tables cannot predict (e.g. a carbanion).
     """
     mol = Chem.MolFromSmiles(smiles)
     if mol is None:
         return None
-    signals = tuple(_predictor(observation.solvent, observation.field_mhz).predict(mol))
+    try:
+        signals = tuple(_predictor(observation.solvent, observation.field_mhz).predict(mol))
+    except InputError:
+        return None
     best = None
     for norm in observation.normalisations:
         m = match(signals, observation.peaks, norm.counts, norm.missing, observation.exchange_absent, settings)
@@ -265,7 +269,8 @@ def read_candidates(path: str) -> CandidateFile:
         except (OSError, UnicodeDecodeError) as exc:
             raise InputError(f"cannot read candidates file {path!r}: {exc}") from None
         texts = [line.split()[0] for line in lines if line.strip() and not line.strip().startswith("#")]
-        records = [(Chem.MolFromSmiles(t), t) for t in texts]
+        with rdBase.BlockLogs():  # an unreadable line is counted, not printed
+            records = [(Chem.MolFromSmiles(t), t) for t in texts]
     smiles, unreadable, mixtures, neutralised = [], 0, 0, 0
     unsupported, elements = Counter(), set()
     for mol, text in records:

@@ -31,7 +31,7 @@ from functools import cache
 from rdkit import Chem
 
 from ..formula import Formula
-from ..spectra import Peak
+from ..spectra import Peak, observation_rule
 from ..tables import read_table
 from .atoms import AtomType
 from .fragment import Fragment, FragmentType
@@ -205,9 +205,10 @@ def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int], claimed: s
         for i, (a, n) in pairs:
             if not rule.first.fits(a, n):
                 continue
-            # the partner with the closest J (equal within 0.7 Hz when both give one)
+            # the partner with the closest J (equal within rules/observe.tsv's tolerance when both give one)
             partners = sorted((_j_gap(a, b), j, b, m) for j, (b, m) in pairs
-                              if i != j and rule.second.fits(b, m) and _j_gap(a, b) <= 0.7)
+                              if i != j and rule.second.fits(b, m)
+                              and _j_gap(a, b) <= observation_rule("equal_j_tolerance"))
             if partners:
                 _, j, b, m = partners[0]
                 # the H counts may show several equal groups (4H q with 6H t: two ethyls)

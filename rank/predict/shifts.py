@@ -46,6 +46,7 @@ from typing import TYPE_CHECKING, NamedTuple, TypeVar
 
 from rdkit import Chem
 
+from ..errors import InputError
 from ..tables import read_table
 from .perceive import EXCHANGEABLE, FAMILIES, SP3_FAMILIES, ClassDraft, Graph
 
@@ -476,7 +477,10 @@ class _Matched:
 def _alkyl_sum(matched: _Matched, draft: ClassDraft) -> _Sum:
     """Base + alpha increments (the 2nd, 3rd... attenuated) + beta increments + site corrections."""
     carbon, family, sites = draft.sites[0].atom, draft.family, matched.alkyl_sites
-    base = sites[("base", carbon)]
+    base = sites.get(("base", carbon))
+    if base is None:
+        raise InputError(f"no base value in rules/shift_alkyl.tsv fits the {family} carbon at atom {carbon} "
+                         "(a charged or unusual carbon); peakrank cannot predict this structure")
     terms, rows = [Term(f"{family} base", base.value(family))], [base]
     _add_alpha(matched, carbon, family, terms, rows)
     _add_beta(matched, carbon, family, terms, rows)
