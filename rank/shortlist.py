@@ -455,6 +455,12 @@ class Identifier:
     progress : print a progress line on stderr on long runs.
     track : a known answer's SMILES; the run then records every misfit and the
         answer's own (benchmarks).
+
+    Notes
+    -----
+    The class is longer than most because it holds one run's steps as short
+    methods, each one job: validate the options, make the work units (generated
+    or listed), run them in this process or in workers, merge the tallies.
     """
 
     top: int = 10
