@@ -34,7 +34,8 @@ EXAMPLES: dict[str, tuple[list[str], list[str]]] = {
     ),
     "small_ring_allene": (
         ["C1=C=CCCC1"],  # cyclohexa-1,2-diene
-        ["C1=CC=CCC1", "C=C=C1CC1"],  # conjugated cyclohexadiene; allene leaving a ring
+        ["C1=CC=CCC1", "C=C=C1CC1", "O=S1(=O)CC=CC1"],  # conjugated cyclohexadiene; allene leaving a ring;
+        # 3-sulfolene (NMRShiftDB2: the S of a cyclic sulfone is no allene)
     ),
     "bridgehead_alkene": (
         ["C12=CCC(C1)C2"],  # bicyclo[2.1.1]hex-1-ene
@@ -54,7 +55,8 @@ EXAMPLES: dict[str, tuple[list[str], list[str]]] = {
     ),
     "enol": (
         ["C=CO"],  # vinyl alcohol
-        ["OC=CC=O", "C=CCO"],  # enol of malondialdehyde (conjugated); allyl alcohol
+        ["OC=CC=O", "C=CCO", "C=C(O)C(=O)O"],  # enol of malondialdehyde (conjugated); allyl alcohol;
+        # the enol of pyruvic acid (enols of alpha-keto acids are stable; NMRShiftDB2 holds several)
     ),
     "ynol": (
         ["C#CO"],  # ethynol
@@ -62,11 +64,14 @@ EXAMPLES: dict[str, tuple[list[str], list[str]]] = {
     ),
     "enamine_nh": (
         ["C=CN", "C=CNC"],  # vinylamine, N-methylvinylamine
-        ["C=CN(C)C", "C=CCN"],  # tertiary enamine; allylamine
+        ["C=CN(C)C", "C=CCN", "CC(=O)C=CN", "NC=C(C#N)C#N"],  # tertiary enamine; allylamine; an
+        # enaminone and an aminomethylene malononitrile (push-pull enamines, stable; NMRShiftDB2)
     ),
     "hemiacetal": (
         ["COCO", "NCO"],  # methoxymethanol; aminomethanol
-        ["OCCO", "CNO"],  # ethane-1,2-diol; N-methylhydroxylamine
+        ["OCCO", "CNO", "OC1CCCCO1", "OC(O)C(F)(F)F", "COC(O)C(=O)OC", "C=CC(=O)NCO"],  # diol;
+        # N-methylhydroxylamine; cyclic hemiacetal (sugars); fluoral hydrate; glyoxylate hemiacetal;
+        # N-(hydroxymethyl)acrylamide: stable kinds NMRShiftDB2 holds
     ),
     "oxide_without_nplus": (
         ["C=[N+]=C[O-]"],  # oxido O on carbon
