@@ -125,7 +125,10 @@ class _Window:
     def fits(self, peak: Peak, n: int) -> bool:
         if peak.broad or not self.low <= peak.shift <= self.high:
             return False
-        if self.multiplicities and peak.multiplicity not in self.multiplicities:
+        if self.multiplicities == ("reported",):
+            if peak.multiplicity is None:
+                return False
+        elif self.multiplicities and peak.multiplicity not in self.multiplicities:
             return False
         return not self.n_h or n in self.n_h
 
@@ -221,6 +224,8 @@ def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int], claimed: s
                   and not p.broad and (rule.max_j is None or all(j <= rule.max_j for j in p.j))]
         if not inside or sum(n for _, _, n in inside) not in rule.first.n_h:
             return None
+        if rule.first.multiplicities == ("reported",) and any(p.multiplicity is None for _, p, _ in inside):
+            return None  # without multiplicities and J the alkene H cannot be set aside
         return Hint(rule.name, ", ".join(p.caption for _, p, _ in inside), peaks=tuple(k for k, _, _ in inside),
                     **group)
     raise ValueError(f"rules/hints.tsv row {rule.id}: unknown kind {rule.kind!r}")
