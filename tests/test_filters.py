@@ -85,6 +85,14 @@ EXAMPLES: dict[str, tuple[list[str], list[str]]] = {
         ["C[NH2+][O-]"],  # N-oxide of methylamine
         ["C[N+](C)(C)[O-]", "CNO"],  # trimethylamine N-oxide; N-methylhydroxylamine
     ),
+    "three_ring_o_hetero": (
+        ["C1OO1", "CC1ON1C"],  # dioxirane; 2,3-dimethyloxaziridine
+        ["C1CO1", "CC1(C)NN1C"],  # oxirane; 1,3,3-trimethyldiaziridine (NMRShiftDB2 holds a diaziridine)
+    ),
+    "fused_three_ring_hetero_pair": (
+        ["C1CN2NC12", "C1CC2NN12"],  # diaziridines fused to a four- and a five-membered ring
+        ["CC1(C)NN1C", "C1CC2OC2C1"],  # a lone diaziridine; cyclopentene oxide (one heteroatom)
+    ),
     "hypervalent_s_without_o": (
         ["C=S=C"],  # S(IV) with two C=S
         ["CS(C)=O"],  # dimethyl sulfoxide

@@ -110,7 +110,7 @@ def _dbe(c: int, h: int, n: int = 0, halogens: int = 0) -> float:
 
 def test_ethyl_acetate_ranks_first_so_the_page_is_about_a_real_answer(result):
     assert Chem.CanonSmiles(result.candidates[0].smiles) == Chem.CanonSmiles("CCOC(C)=O")
-    assert len(result.candidates) == 3
+    assert 1 < len(result.candidates) <= 3  # a short list, not a lone answer
 
 
 def test_report_is_one_document_without_external_references(page):
