@@ -50,7 +50,7 @@ from typing import TYPE_CHECKING, NamedTuple
 import numpy as np
 from scipy.optimize import linear_sum_assignment
 
-from .spectra import Peak, coupling_groups
+from .spectra import MULTIPLET_NAMES, Peak, coupling_groups
 
 if TYPE_CHECKING:
     from collections.abc import Sequence
@@ -183,7 +183,6 @@ def multiplicity_penalty(observed: str | None, predicted: str, exchangeable: boo
     return 0.5 if abs(n_obs - n_pred) == 1 else 1.0
 
 
-_NAMES = {1: "d", 2: "t", 3: "q", 4: "quint", 5: "sext", 6: "sept"}
 
 
 @cache
@@ -202,8 +201,8 @@ def without_small_couplings(multiplicity: str | None, j: tuple[float, ...], belo
     if not kept:
         return "s"
     if len(kept) == 1:
-        return _NAMES.get(kept[0], "m")
-    return "".join(_NAMES[n] for n in kept) if all(n <= 3 for n in kept) else "m"
+        return MULTIPLET_NAMES.get(kept[0], "m")
+    return "".join(MULTIPLET_NAMES[n] for n in kept) if all(n <= 3 for n in kept) else "m"
 
 
 def coupling_penalty(observed: tuple[float, ...], predicted: tuple[float, ...], tolerance: float,

@@ -27,6 +27,7 @@ from __future__ import annotations
 from functools import cache
 from typing import TYPE_CHECKING, NamedTuple
 
+from ..spectra import MULTIPLET_NAMES
 from ..tables import read_table
 from .perceive import SP3_FAMILIES, Perception
 
@@ -44,7 +45,6 @@ ALWAYS_BROAD = frozenset({"NH", "COOH"})
 """Exchangeable families predicted as a broad singlet whatever their couplings: NH (14N
 quadrupole relaxation and exchange) and COOH (fast exchange) (common practice)."""
 
-_LETTERS = {1: "d", 2: "t", 3: "q", 4: "quint", 5: "sext", 6: "sept"}
 """Pattern names by the number of equivalent partners."""
 
 _COMPOUND_MAX = 3
@@ -153,10 +153,10 @@ def _name(sizes: list[int], rules: MultipletRules) -> str:
     if len(sizes) > rules.max_groups:
         return "m"
     if len(sizes) == 1:
-        return _LETTERS[sizes[0]] if sizes[0] <= rules.max_group_size else "m"
+        return MULTIPLET_NAMES[sizes[0]] if sizes[0] <= rules.max_group_size else "m"
     if any(n > _COMPOUND_MAX for n in sizes):
         return "m"
-    return "".join(_LETTERS[n] for n in sizes)
+    return "".join(MULTIPLET_NAMES[n] for n in sizes)
 
 
 class MultipletPredictor:

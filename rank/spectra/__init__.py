@@ -10,6 +10,7 @@ from .files import read_peaks
 from .integrals import Normalisation, exchangeable_bound, normalise, with_counts
 from .peaks import (
     DEFAULT_FIELD_MHZ,
+    MULTIPLET_NAMES,
     Dropped,
     Peak,
     Spectrum,
@@ -31,6 +32,7 @@ from .text import parse_peak_text
 __all__ = [
     "DEFAULT_FIELD_MHZ",
     "DEFAULT_SOLVENT",
+    "MULTIPLET_NAMES",
     "Dropped",
     "Normalisation",
     "Peak",

@@ -19,12 +19,26 @@ from ..errors import InputError
 from ..tables import read_table
 
 __all__ = [
-    "DASH", "DEFAULT_FIELD_MHZ", "NUMBER", "SHIFT_RANGE", "Dropped", "Peak", "Spectrum", "coupling_groups",
-    "format_peaks", "make_peak", "normalise_multiplicity", "number", "observation_rule"
+    "DASH",
+    "DEFAULT_FIELD_MHZ",
+    "MULTIPLET_NAMES",
+    "NUMBER",
+    "SHIFT_RANGE",
+    "Dropped",
+    "Peak",
+    "Spectrum",
+    "coupling_groups",
+    "format_peaks",
+    "make_peak",
+    "normalise_multiplicity",
+    "number",
+    "observation_rule"
 ]
 
 SHIFT_RANGE = (-1.0, 16.0)
 _SIMPLE = {"s": 0, "d": 1, "t": 2, "q": 3, "quint": 4, "sext": 5, "sept": 6}
+MULTIPLET_NAMES = {n: name for name, n in _SIMPLE.items() if n}
+"""The first-order multiplet of n equivalent partners (n+1 rule): 1 d, 2 t, 3 q, 4 quint, 5 sext, 6 sept."""
 _ALIASES = {
     "p": "quint", "quin": "quint", "pent": "quint", "pentet": "quint", "quintet": "quint",
     "sextet": "sext", "hept": "sept", "septet": "sept", "heptet": "sept", "sep": "sept",
