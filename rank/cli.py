@@ -145,6 +145,7 @@ def build_parser() -> argparse.ArgumentParser:
     _add_bench(sub)
     _add_demo(sub)
     _add_predict(sub)
+    _add_peaks(sub)
     return parser
 
 
@@ -372,8 +373,8 @@ def _run_isomers(args: argparse.Namespace) -> int:
 def _add_predict(sub) -> None:
     pre = sub.add_parser("predict", help="predict the 1H NMR signals of a structure, with their arithmetic")
     pre.add_argument("smiles", metavar="SMILES", help="the structure, e.g. 'CCOC(C)=O' (quote it in the shell)")
-    pre.add_argument("--solvent", default="CDCl3", metavar="NAME", help="NMR solvent (default CDCl3)")
-    pre.add_argument("--field", type=float, default=400.0, metavar="MHZ",
+    pre.add_argument("--solvent", metavar="NAME", help="NMR solvent (default CDCl3)")
+    pre.add_argument("--field", type=float, metavar="MHZ",
                      help="spectrometer frequency, judges first-order multiplets (default 400)")
     pre.add_argument("--json", metavar="PATH", help="write the signals as JSON ('-' for stdout, nothing else there)")
     pre.add_argument("--force", action="store_true", help="replace the --json file if it exists")
@@ -387,9 +388,11 @@ def _run_predict(args: argparse.Namespace) -> int:
 
     from .predict import Predictor, parse_smiles, signal_table
     from .report import write_whole_file
+    from .spectra import DEFAULT_FIELD_MHZ, DEFAULT_SOLVENT
 
     outputs = _check_outputs(args, {"--json": ("json", "signals.json")})
-    predictor = Predictor(args.solvent, args.field)
+    args.field = DEFAULT_FIELD_MHZ if args.field is None else args.field
+    predictor = Predictor(args.solvent or DEFAULT_SOLVENT, args.field)
     notes: list[str] = []
     mol = parse_smiles(args.smiles, notes)
     used = Chem.MolToSmiles(mol)
@@ -410,6 +413,35 @@ def _run_predict(args: argparse.Namespace) -> int:
         return 0
     print(f"{smiles}  ({predictor.solvent_id}, {args.field:g} MHz)")
     sys.stdout.write(signal_table(signals))
+    return 0
+
+
+def _add_peaks(sub) -> None:
+    pea = sub.add_parser("peaks", help="print the peak list read from a file, in the style --peaks accepts")
+    pea.add_argument("file", metavar="FILE", help="a peak file (.csv, .tsv, .json, .jdx, .txt) or inline text")
+    pea.add_argument("--json", metavar="PATH", help="write the peaks as JSON ('-' for stdout, nothing else there)")
+    pea.add_argument("--force", action="store_true", help="replace the --json file if it exists")
+    pea.set_defaults(run=_run_peaks)
+
+
+def _run_peaks(args: argparse.Namespace) -> int:
+    import json
+
+    from .report import peak_json, write_whole_file
+    from .spectra import format_peaks, read_peaks
+
+    outputs = _check_outputs(args, {"--json": ("json", "peaks.json")})
+    spectrum = read_peaks(args.file)
+    text = json.dumps({"solvent": spectrum.solvent, "field_mhz": spectrum.field_mhz,
+                       "peaks": [peak_json(p) for p in spectrum.peaks]}, indent=2, ensure_ascii=False) + "\n"
+    if outputs.get("--json", "-") != "-":
+        write_whole_file(outputs["--json"], text, args.force)
+    if outputs.get("--json") == "-":
+        sys.stdout.write(text)
+        return 0
+    facts = ", ".join(f for f in (f"{spectrum.field_mhz:g} MHz" if spectrum.field_mhz else "", spectrum.solvent or "")
+                      if f)
+    print(f"1H NMR{f' ({facts})' if facts else ''} δ {format_peaks(spectrum.peaks)}")
     return 0
 
 

@@ -316,3 +316,25 @@ def test_malformed_bench_file_exits_2(content, tmp_path, capsys):
 def test_missing_bench_file_exits_2(tmp_path, capsys):
     code, out, err = run_cli(["bench", str(tmp_path / "none.tsv")], capsys)
     one_line_error(code, out, err)
+
+
+def test_peaks_prints_a_file_in_the_style_peaks_accepts_and_it_reads_back(tmp_path, capsys):
+    # ethyl acetate (Gottlieb et al. 1997, from memory) as a CSV file
+    from rank.spectra import parse_peak_text, read_peaks
+
+    path = tmp_path / "ea.csv"
+    path.write_text("shift,n_h,multiplicity,j,label\n4.12,2,q,7.1,OCH2\n2.05,3,s,,\n1.26,3,t,7.1,\n",
+                    encoding="utf-8")
+    code, out, err = run_cli(["peaks", str(path)], capsys)
+    assert (code, err) == (0, "")
+    assert out.strip() == "1H NMR δ 4.12 (q, J = 7.1 Hz, 2H, OCH2), 2.05 (s, 3H), 1.26 (t, J = 7.1 Hz, 3H)"
+    assert parse_peak_text(out).peaks == read_peaks(str(path)).peaks
+
+
+def test_peaks_json_to_stdout_holds_only_json(tmp_path, capsys):
+    path = tmp_path / "ea.txt"
+    path.write_text("1H NMR (400 MHz, CDCl3) δ 4.12 (q, 2H), 2.05 (s, 3H)\n", encoding="utf-8")
+    code, out, _ = run_cli(["peaks", str(path), "--json", "-"], capsys)
+    doc = json.loads(out)
+    assert code == 0 and (doc["solvent"], doc["field_mhz"]) == ("CDCl3", 400.0)
+    assert [p["shift"] for p in doc["peaks"]] == [4.12, 2.05]

@@ -21,8 +21,8 @@ from ..shortlist import CAUTION, Candidate, Shortlist
 
 __all__ = [
     "CONFIDENCE_DECIMALS", "COUPLING_DECIMALS", "INTEGRAL_DIGITS", "MISFIT_DECIMALS", "PENALTY_DECIMALS",
-    "SHIFT_DECIMALS", "Z_DECIMALS", "assignment_rows", "csv_text", "json_text", "terminal_text", "to_json",
-    "write_whole_file"
+    "SHIFT_DECIMALS", "Z_DECIMALS", "assignment_rows", "csv_text", "json_text", "peak_json", "terminal_text",
+    "to_json", "write_whole_file"
 ]
 
 SHIFT_DECIMALS = 3        # ppm
@@ -81,8 +81,8 @@ def to_json(result: Shortlist) -> dict:
         "complete": result.complete,
         "solvent": obs.solvent,
         "field_mhz": obs.field_mhz,
-        "peaks_used": [_peak_json(p) for p in obs.peaks],
-        "peaks_dropped": [{**_peak_json(d.peak), "reason": d.reason} for d in result.dropped],
+        "peaks_used": [peak_json(p) for p in obs.peaks],
+        "peaks_dropped": [{**peak_json(d.peak), "reason": d.reason} for d in result.dropped],
         "normalisations": [{"counts": list(n.counts), "missing": n.missing, "error": round(n.error, PENALTY_DECIMALS)}
                            for n in obs.normalisations],
         "hints": [{"name": h.name, "copies": h.copies, "evidence": h.evidence,
@@ -111,7 +111,8 @@ def to_json(result: Shortlist) -> dict:
     }
 
 
-def _peak_json(p) -> dict:
+def peak_json(p) -> dict:
+    """One observed peak as JSON: shift, low, high, integral, multiplicity, J, label."""
     return {"shift": _ppm(p.shift), "low": _ppm(p.low), "high": _ppm(p.high),
             "integral": _significant(p.integral, INTEGRAL_DIGITS),
             "multiplicity": p.multiplicity, "j": [round(j, COUPLING_DECIMALS) for j in p.j],
