@@ -26,7 +26,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import NamedTuple
 
-from rdkit import Chem, rdBase
+from rdkit import Chem
 from rdkit.Chem import rdMolDescriptors
 
 from .errors import InputError
@@ -48,7 +48,7 @@ from .spectra import (
     normalise,
     read_peaks,
 )
-from .standardize import Unsupported, standardize, supported_text
+from .standardize import Unsupported, quiet_rdkit, standardize, supported_text
 from .tables import read_table
 
 __all__ = [
@@ -269,7 +269,7 @@ def read_candidates(path: str) -> CandidateFile:
         except (OSError, UnicodeDecodeError) as exc:
             raise InputError(f"cannot read candidates file {path!r}: {exc}") from None
         texts = [line.split()[0] for line in lines if line.strip() and not line.strip().startswith("#")]
-        with rdBase.BlockLogs():  # an unreadable line is counted, not printed
+        with quiet_rdkit():  # an unreadable line is counted, not printed
             records = [(Chem.MolFromSmiles(t), t) for t in texts]
     smiles, unreadable, mixtures, neutralised = [], 0, 0, 0
     unsupported, elements = Counter(), set()

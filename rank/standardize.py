@@ -23,16 +23,27 @@ from __future__ import annotations
 
 from typing import NamedTuple
 
-from rdkit import Chem
+from rdkit import Chem, rdBase
 from rdkit.Chem.MolStandardize import rdMolStandardize
 
 from .errors import InputError
 from .formula import ELEMENTS
 
-__all__ = ["SUPPORTED", "Standardized", "Unsupported", "standardize", "supported_text"]
+__all__ = ["SUPPORTED", "Standardized", "Unsupported", "quiet_rdkit", "standardize", "supported_text"]
 
 SUPPORTED = ELEMENTS
 """The elements peakrank works on (``rules/valences.tsv`` and the formula parser)."""
+
+
+
+def quiet_rdkit() -> rdBase.BlockLogs:
+    """A context that keeps RDKit's log quiet while it lasts (``with quiet_rdkit(): ...``).
+
+    For parsing what may not parse (a user's SMILES or SMARTS, whose error the caller reports on
+    one line, or counts) and for sanitising generated structures, some of which RDKit refuses;
+    outside such a block RDKit logs as the rest of the process has set it.
+    """
+    return rdBase.BlockLogs()
 
 
 class Unsupported(InputError):

@@ -25,11 +25,11 @@ from typing import NamedTuple
 
 from rdkit import Chem
 
+from ..standardize import quiet_rdkit
 from ..tables import read_table
 from .core import VertexType
 from .fragment import FragmentType, is_canonical_placement
 from .hints import Hint
-from .smarts import quiet_rdkit
 
 __all__ = ["Acceptor", "Filter", "Isomer", "Rejection", "Why", "plausibility_filters"]
 

@@ -15,27 +15,14 @@ forbidden triple bonds between atoms given by element number (``[#6]#[#7]``); SM
 
 from __future__ import annotations
 
-from rdkit import Chem, rdBase
+from rdkit import Chem
 
 from ..errors import InputError
+from ..standardize import quiet_rdkit
 from .atoms import AtomType
 from .fragment import FragmentType
 
-__all__ = ["atom_truth", "compile_smarts", "is_triple_bond_pattern", "quiet_rdkit"]
-
-
-def quiet_rdkit() -> rdBase.BlockLogs:
-    """A context that keeps RDKit's log quiet while it lasts (``with quiet_rdkit(): ...``).
-
-    For parsing what may not parse (a user's SMARTS, whose error the caller reports on one
-    line) and for sanitising generated structures, some of which RDKit refuses; outside
-    such a block RDKit logs as the rest of the process has set it.
-
-    Returns
-    -------
-    rdkit.rdBase.BlockLogs
-    """
-    return rdBase.BlockLogs()
+__all__ = ["atom_truth", "compile_smarts", "is_triple_bond_pattern"]
 
 
 def compile_smarts(text: str, what: str = "SMARTS") -> Chem.Mol:

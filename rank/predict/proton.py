@@ -29,14 +29,13 @@ from __future__ import annotations
 
 import dataclasses
 import math
-from collections.abc import Iterator
-from contextlib import contextmanager
 from dataclasses import dataclass
 
-from rdkit import Chem, rdBase
+from rdkit import Chem
 
 from ..errors import InputError
 from ..spectra import DEFAULT_FIELD_MHZ, DEFAULT_SOLVENT, Solvent, find_solvent
+from ..standardize import quiet_rdkit, standardize
 from .environment import environment_codes, find_correction
 from .multiplets import Coupling, MultipletPredictor
 from .perceive import ProtonClass, perceive
@@ -184,8 +183,9 @@ class Predictor:
         shifts = ShiftCalculator(perception.graph, self._solvent)
         predicted = [shifts.predict(draft) for draft in perception.drafts]
         if self.environment:
-            predicted = [shift if proton_class.exchangeable else _corrected(shift, mol, proton_class.atoms[0])
-                         for shift, proton_class in zip(predicted, perception.classes)]
+            predicted = [shift if proton_class.exchangeable
+                         else _corrected(shift, perception.graph.mol, draft.sites[0].atom)
+                         for shift, proton_class, draft in zip(predicted, perception.classes, perception.drafts)]
         centres = [p.shift for p in predicted]
         multiplets = MultipletPredictor(perception, self._solvent, float(self.field_mhz))
         signals = []
@@ -276,11 +276,10 @@ def parse_smiles(smiles: str, notes: list[str] | None = None) -> Chem.Mol:
     >>> Chem.MolToSmiles(parse_smiles("CC(=O)[O-].[Na+]"))
     'CC(=O)O'
     """
-    from ..standardize import standardize
 
     mol = None
     if isinstance(smiles, str) and smiles.strip():
-        with _rdkit_log_held_back():   # the InputError below says what is wrong, on one line
+        with quiet_rdkit():   # the InputError below says what is wrong, on one line
             mol = Chem.MolFromSmiles(smiles)
     if mol is None or mol.GetNumAtoms() == 0:
         raise InputError(f"{smiles!r} is not a valid SMILES; write e.g. 'CCOC(C)=O' (quote it in the shell)")
@@ -295,14 +294,3 @@ def predict_smiles(smiles: str, solvent: str = DEFAULT_SOLVENT, environment: boo
     """The predicted signals of a SMILES (at ``rank.spectra.DEFAULT_FIELD_MHZ``, 400 MHz); InputError on
     invalid SMILES or unknown solvent.  ``environment=True`` adds the fitted environment corrections."""
     return Predictor(solvent, environment=environment).predict(parse_smiles(smiles))
-
-
-@contextmanager
-def _rdkit_log_held_back() -> Iterator[None]:
-    """Hold back RDKit's log lines inside the block (e.g. the several lines of a SMILES parse
-    error), restoring the logs' previous state after it."""
-    blocker = rdBase.BlockLogs()
-    try:
-        yield
-    finally:
-        del blocker
