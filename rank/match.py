@@ -205,6 +205,22 @@ def without_small_couplings(multiplicity: str | None, j: tuple[float, ...], belo
     return "".join(MULTIPLET_NAMES[n] for n in kept) if all(n <= 3 for n in kept) else "m"
 
 
+@cache
+def _observed(peaks: tuple[Peak, ...], small_j: float) -> tuple[np.ndarray, np.ndarray, tuple[frozenset, ...]]:
+    """Per spectrum, computed once: the peaks' lower and upper edges, and each peak's observed
+    pattern with and without its couplings under ``small_j`` Hz."""
+    forms = tuple(frozenset({pk.multiplicity, without_small_couplings(pk.multiplicity, pk.j, small_j)})
+                  for pk in peaks)
+    return np.array([pk.low for pk in peaks]), np.array([pk.high for pk in peaks]), forms
+
+
+@cache
+def _pattern_penalty(observed: frozenset, predicted: str, rough: str, exchangeable: bool) -> float:
+    """The lowest multiplicity penalty over the observed forms and the predicted pattern with and
+    without its small couplings."""
+    return min(multiplicity_penalty(o, p, exchangeable) for o in observed for p in (predicted, rough))
+
+
 def coupling_penalty(observed: tuple[float, ...], predicted: tuple[float, ...], tolerance: float,
                      small: float = 0.0, step: float = DEFAULT_SETTINGS.j_step) -> float:
     """Mean over observed J of how far the nearest predicted J lies beyond ``tolerance`` Hz, in ``step`` Hz steps.
@@ -273,17 +289,14 @@ def _cost_matrix(signals: Sequence[Signal], peaks: tuple[Peak, ...], counts: tup
     n_sig, n_peaks = len(signals), len(peaks)
     shifts = np.array([sg.shift for sg in signals])
     sigmas = np.array([sg.sigma for sg in signals])
-    lows = np.array([pk.low for pk in peaks])
-    highs = np.array([pk.high for pk in peaks])
+    lows, highs, seen = _observed(peaks, settings.small_observed_j)
     nearest = np.clip(shifts[:, None], lows[None, :], highs[None, :])
     residual = (nearest - shifts[:, None]) / sigmas[:, None]
     z2 = np.minimum(residual ** 2, settings.z_cap)
-    coarse = [without_small_couplings(sg.multiplicity, sg.j, settings.hidden_j) for sg in signals]
-    seen = [{pk.multiplicity, without_small_couplings(pk.multiplicity, pk.j, settings.small_observed_j)}
-            for pk in peaks]
-    pen_mult = np.array([[min(multiplicity_penalty(o, p, sg.exchangeable) for o in forms
-                              for p in (sg.multiplicity, rough))
-                          for forms in seen] for sg, rough in zip(signals, coarse)]).reshape(n_sig, n_peaks)
+    pen_mult = np.array([[_pattern_penalty(forms, sg.multiplicity,
+                                           without_small_couplings(sg.multiplicity, sg.j, settings.hidden_j),
+                                           sg.exchangeable)
+                          for forms in seen] for sg in signals]).reshape(n_sig, n_peaks)
     pen_j = np.array([[coupling_penalty(pk.j, sg.j, settings.j_tolerance, settings.small_observed_j,
                                         settings.j_step)
                        if pk.j and sg.j else 0.0
