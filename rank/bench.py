@@ -24,7 +24,6 @@ import csv
 import hashlib
 import math
 import re
-import tempfile
 import time
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -33,7 +32,7 @@ from pathlib import Path
 from rdkit import Chem
 
 from .errors import InputError
-from .formula import ELEMENTS
+from .formula import parse_formula
 from .shortlist import Identifier
 
 __all__ = [
@@ -91,11 +90,12 @@ def read_cases(path: str, part: str = "all") -> list[Case]:
     file = Path(path)
     if not file.is_file():
         raise InputError(f"known-answer file {path!r} not found")
-    lines = [ln for ln in file.read_text(encoding="utf-8").splitlines() if ln.strip() and not ln.startswith("#")]
-    if lines and not lines[0].startswith("id\t"):
-        lines.insert(0, "\t".join(OPEN_COLUMNS + ("c13", "hsqc")))  # the open data set names its columns in a comment
-    rows = list(csv.DictReader(lines, delimiter="\t", quoting=csv.QUOTE_NONE))
-    if rows and all(c in rows[0] for c in OPEN_COLUMNS):
+    text = file.read_text(encoding="utf-8")
+    lines = [ln for ln in text.splitlines() if ln.strip() and not ln.startswith("#")]
+    open_data = re.search(r"^# columns: id \(InChIKey\), nmrshiftdb2_id", text, re.MULTILINE) is not None
+    header = OPEN_COLUMNS + ("c13", "hsqc") if open_data else None  # the open data names its columns in a comment
+    rows = list(csv.DictReader(lines, fieldnames=header, delimiter="\t", quoting=csv.QUOTE_NONE))
+    if open_data:
         rows = [_open_row(r) for r in rows if _supported(r["formula"])]
     if not rows or any(c not in rows[0] for c in COLUMNS):
         raise InputError(f"{path}: needs the tab-separated columns {', '.join(COLUMNS)}")
@@ -118,8 +118,11 @@ def _open_row(r: dict[str, str]) -> dict[str, str]:
 
 
 def _supported(formula: str) -> bool:
-    return bool(re.fullmatch(r"(?:[A-Z][a-z]?\d*)+", formula)) and \
-        all(el in ELEMENTS for el in re.findall(r"[A-Z][a-z]?", formula)) and "C" in re.findall(r"[A-Z][a-z]?", formula)
+    """A formula peakrank handles: its elements only, with carbon."""
+    try:
+        return parse_formula(formula)["C"] > 0
+    except InputError:
+        return False
 
 
 def select_cases(cases: list[Case], only: Sequence[str] = (), carbons: str | None = None,
@@ -132,15 +135,10 @@ def select_cases(cases: list[Case], only: Sequence[str] = (), carbons: str | Non
         if not m:
             raise InputError(f"--carbons {carbons!r}: give a range such as 2-8")
         low, high = int(m.group(1)), int(m.group(2))
-        chosen = [c for c in chosen if low <= _carbons(c.formula) <= high]
+        chosen = [c for c in chosen if low <= parse_formula(c.formula)["C"] <= high]
     if sample is not None:
         chosen = sorted(chosen, key=lambda c: hashlib.sha256(c.id.encode()).hexdigest())[:sample]
     return chosen
-
-
-def _carbons(formula: str) -> int:
-    m = re.search(r"C(?![a-z])(\d*)", formula)
-    return 0 if m is None else int(m.group(1) or 1)
 
 
 def read_library(path: str) -> dict[str, list[str]]:
@@ -165,11 +163,8 @@ def run_case(case: Case, library: dict[str, list[str]] | None = None, **options)
         if library is None:
             result = Identifier(track=case.smiles, **options).identify(case.formula, case.peaks)
         else:
-            with tempfile.NamedTemporaryFile("w", suffix=".smi", encoding="utf-8") as suspects:
-                suspects.write("\n".join(library.get(case.formula, [case.smiles])) + "\n")
-                suspects.flush()
-                result = Identifier(track=case.smiles, **options).identify(case.formula, case.peaks,
-                                                                           suspects.name)
+            suspects = library.get(case.formula, [case.smiles])
+            result = Identifier(track=case.smiles, **options).identify(case.formula, case.peaks, suspects)
     except InputError as exc:
         return Outcome(case, None, 0, time.perf_counter() - start, None, None, None, (), str(exc))
     seconds = time.perf_counter() - start

@@ -176,7 +176,7 @@ def _add_bench(sub) -> None:
                      help="refuse compounds whose isomer space is estimated above N (default 2,000,000)")
     ben.add_argument("--fit", action="store_true",
                      help="fit the confidence temperature on this set and print it with the calibration")
-    ben.add_argument("--part", choices=("fit", "held-out", "all"), default="all",
+    ben.add_argument("--part", choices=("fit", "held-out", "all"), default="all",  # rank.bench.PARTS
                      help="of the open data set: the fit part, the held-out part or all rows (default all)")
     ben.add_argument("--library", metavar="FILE",
                      help="rank each compound among the structures of its formula in this grouped file "

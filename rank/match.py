@@ -183,8 +183,6 @@ def multiplicity_penalty(observed: str | None, predicted: str, exchangeable: boo
     return 0.5 if abs(n_obs - n_pred) == 1 else 1.0
 
 
-
-
 @cache
 def without_small_couplings(multiplicity: str | None, j: tuple[float, ...], below: float) -> str | None:
     """The first-order pattern left when couplings under ``below`` Hz are not resolved.

@@ -251,26 +251,19 @@ class CandidateFile(NamedTuple):
     elements: tuple[str, ...]
 
 
-def read_candidates(path: str) -> CandidateFile:
-    """SMILES (one per line, optional name after white space) or SDF.
+def read_candidates(source: str | Sequence[str]) -> CandidateFile:
+    """Suspects from a file (SMILES, one per line with an optional name after white space; or SDF)
+    or from a sequence of SMILES.
 
     Lines RDKit cannot read are counted in ``unreadable``; structures with other
     elements, radicals and mixtures without carbon are skipped and counted in
     ``unsupported`` by kind (``"elements"``, ``"radical"``, ``"inorganic"``).
     """
-    file = Path(path)
-    if not file.is_file():
-        raise InputError(f"candidates file {path!r} not found")
-    if file.suffix.lower() in (".sdf", ".sd", ".mol"):
-        records = [(mol, None if mol is None else Chem.MolToSmiles(mol)) for mol in Chem.SDMolSupplier(str(file))]
+    if isinstance(source, str):
+        records = _candidate_records(source)
     else:
-        try:
-            lines = file.read_text(encoding="utf-8").splitlines()
-        except (OSError, UnicodeDecodeError) as exc:
-            raise InputError(f"cannot read candidates file {path!r}: {exc}") from None
-        texts = [line.split()[0] for line in lines if line.strip() and not line.strip().startswith("#")]
-        with quiet_rdkit():  # an unreadable line is counted, not printed
-            records = [(Chem.MolFromSmiles(t), t) for t in texts]
+        with quiet_rdkit():  # an unreadable SMILES is counted, not printed
+            records = [(Chem.MolFromSmiles(t), t) for t in source]
     smiles, unreadable, mixtures, neutralised = [], 0, 0, 0
     unsupported, elements = Counter(), set()
     for mol, text in records:
@@ -287,6 +280,22 @@ def read_candidates(path: str) -> CandidateFile:
         neutralised += used.neutralised
         smiles.append(used.smiles)
     return CandidateFile(smiles, unreadable, mixtures, neutralised, unsupported, tuple(sorted(elements)))
+
+
+def _candidate_records(path: str) -> list[tuple[Chem.Mol | None, str | None]]:
+    """(molecule or None, text) per entry of a SMILES or SDF file."""
+    file = Path(path)
+    if not file.is_file():
+        raise InputError(f"candidates file {path!r} not found")
+    if file.suffix.lower() in (".sdf", ".sd", ".mol"):
+        return [(mol, None if mol is None else Chem.MolToSmiles(mol)) for mol in Chem.SDMolSupplier(str(file))]
+    try:
+        lines = file.read_text(encoding="utf-8").splitlines()
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read candidates file {path!r}: {exc}") from None
+    texts = [line.split()[0] for line in lines if line.strip() and not line.strip().startswith("#")]
+    with quiet_rdkit():  # an unreadable line is counted, not printed
+        return [(Chem.MolFromSmiles(t), t) for t in texts]
 
 
 # --------------------------------------------------------------- ranking ----
@@ -491,8 +500,10 @@ class Identifier:
         if self.solvent is not None:
             find_solvent(self.solvent)
 
-    def identify(self, formula: str, peaks: str | Spectrum, candidates: str | None = None) -> Shortlist:
-        """Run the identification; ``peaks`` is inline text, a file path or a Spectrum.
+    def identify(self, formula: str, peaks: str | Spectrum,
+                 candidates: str | Sequence[str] | None = None) -> Shortlist:
+        """Run the identification; ``peaks`` is inline text, a file path or a Spectrum; ``candidates``
+        a file of suspects (SMILES or SDF) or a sequence of SMILES, else the formula's isomers.
 
         Raises
         ------
@@ -541,10 +552,10 @@ class Identifier:
         result.hinted = dict(plan.hinted)
         return units, plan.pruned
 
-    def _listed_units(self, path: str, require, forbid, result: Shortlist) -> list[_Unit]:
+    def _listed_units(self, source: str | Sequence[str], require, forbid, result: Shortlist) -> list[_Unit]:
         """A candidates file's structures of the formula that pass the patterns, in chunks;
         what was changed or left out is counted in ``result``."""
-        listed = read_candidates(path)
+        listed = read_candidates(source)
         result.skipped_inputs, result.mixtures, result.neutralised = \
             listed.unreadable, listed.mixtures, listed.neutralised
         result.unsupported, result.unsupported_elements = dict(listed.unsupported), listed.elements
@@ -652,7 +663,8 @@ def _add_counts(into: dict[str, int], counts: Counter) -> None:
         into[name] = into.get(name, 0) + n
 
 
-def _nothing_left(result: Shortlist, filtered: Counter, pruned: Counter, candidates: str | None) -> str:
+def _nothing_left(result: Shortlist, filtered: Counter, pruned: Counter,
+                  candidates: str | Sequence[str] | None) -> str:
     """Why no candidate was scored, in one line that says what to change.
 
     The user's patterns come last in the pipeline, so when they left out anything

@@ -104,7 +104,6 @@ def _figure(x: float) -> str:
     return f"{mantissa}e{int(exponent)}"
 
 
-
 class Plan(NamedTuple):
     """The work of a stream, planned before any structure is built."""
 

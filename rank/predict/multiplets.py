@@ -45,8 +45,6 @@ ALWAYS_BROAD = frozenset({"NH", "COOH"})
 """Exchangeable families predicted as a broad singlet whatever their couplings: NH (14N
 quadrupole relaxation and exchange) and COOH (fast exchange) (common practice)."""
 
-"""Pattern names by the number of equivalent partners."""
-
 _COMPOUND_MAX = 3
 """Largest partner group written in a compound pattern (``dq``; papers do not write ``dquint``)."""
 

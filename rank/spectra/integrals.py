@@ -41,9 +41,6 @@ class Normalisation:
         return f"{shown} H{extra} (scale {self.scale:.4g}, rounding {self.error:.2f})"
 
 
-
-
-
 def normalise(peaks: tuple[Peak, ...], hydrogens: int, max_missing: int,
               keep: int | None = None) -> list[Normalisation]:
     """Whole-number H counts for the peaks.
@@ -125,7 +122,6 @@ def _smallest_ratio(values: list[float]) -> str:
 def with_counts(peaks: tuple[Peak, ...], norm: Normalisation) -> tuple[Peak, ...]:
     """The peaks with their integrals replaced by the normalised H counts."""
     return tuple(replace(p, integral=float(c)) for p, c in zip(peaks, norm.counts))
-
 
 
 def exchangeable_bound(nitrogens: int, oxygens: int, sulfurs: int, hydrogens: int) -> int:

@@ -215,7 +215,3 @@ def make_peak(a: float, b: float | None, integral: float | None, mult: str | Non
         raise InputError(f"peak at {(low + high) / 2:g} ppm: J values must lie between 0 and 40 Hz")
     multiplicity = None if mult is None else normalise_multiplicity(mult)
     return Peak(round((low + high) / 2, 4), low, high, integral, multiplicity, j, label, counted)
-
-
-# A header names the nucleus and the experiment; its parentheses hold field, solvent and temperature:
-#   1H NMR (400 MHz, CDCl3) δ   |  1H-NMR (CDCl3, 400 MHz): δ (ppm) =  |  δH (400 MHz; CDCl3)  |  ¹H NMR δ

@@ -16,6 +16,8 @@ from .solvents import find_solvent
 
 __all__ = ["parse_peak_text"]
 
+# A header names the nucleus and the experiment; its parentheses hold field, solvent and temperature:
+#   1H NMR (400 MHz, CDCl3) δ   |  1H-NMR (CDCl3, 400 MHz): δ (ppm) =  |  δH (400 MHz; CDCl3)  |  ¹H NMR δ
 _NUCLEUS = r"(?P<nucleus>(?:1|¹|\^1)?H|(?:13|¹³|\^13)C)"
 _PARENS = r"\((?P<{name}>[^()]*)\)"
 _HEADER = re.compile(
