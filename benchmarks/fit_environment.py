@@ -19,49 +19,36 @@ import sys
 from collections import defaultdict
 from pathlib import Path
 
+from predict_open import paired_h, predictor_for, predictors
 from rdkit import Chem
 
 from rank.bench import read_cases
-from rank.predict import Predictor
 from rank.predict.environment import MAX_RADIUS, environment_codes
 
 DATA = Path(__file__).resolve().parent / "data" / "open-spectra.tsv"
 TABLE = Path(__file__).resolve().parent.parent / "rules" / "environment.tsv"
 
 
-def observed_h(peaks: str) -> list[float]:
-    """One shift per H from a database list '3.29 (4H), 2.33 (2H)'."""
-    from rank.spectra import parse_peak_text
-
-    return sorted(p.shift for p in parse_peak_text(peaks).peaks for _ in range(int(p.integral)))
-
-
-def class_residuals(case, predictors: dict) -> list[tuple[tuple[str, ...], float]] | None:
+def class_residuals(case, table: dict) -> list[tuple[tuple[str, ...], float]] | None:
     """(environment codes, residual) per non-exchangeable proton class, or None when the H do not pair."""
-    mol = Chem.MolFromSmiles(case.smiles)
-    solvent = case.solvent if case.solvent in predictors else "CDCl3"
-    signals = [s for s in predictors[solvent].predict(mol) if not s.exchangeable]
-    per_h = sorted((s.shift, k) for k, s in enumerate(signals) for _ in range(s.n_h))
-    obs = observed_h(case.peaks)
-    if len(obs) != len(per_h):
+    paired = paired_h(case, predictor_for(case, table))
+    if paired is None:
         return None
-    paired = defaultdict(list)
-    for (_, k), o in zip(per_h, obs):
-        paired[k].append(o)
-    out = []
-    for k, s in enumerate(signals):
-        codes = environment_codes(mol, s.atoms[0])
-        out.append((codes, statistics.fmean(paired[k]) - s.shift))
-    return out
+    signals, pairs = paired
+    observed = defaultdict(list)
+    for k, o in pairs:
+        observed[k].append(o)
+    mol = Chem.MolFromSmiles(case.smiles)
+    return [(environment_codes(mol, s.atoms[0]), statistics.fmean(observed[k]) - s.shift)
+            for k, s in enumerate(signals)]
 
 
 def fit(cases, min_compounds: int, shrink: float) -> dict[str, tuple[int, int, float, float]]:
     """code -> (radius, compounds, mean, sd)."""
-    predictors = {name: Predictor(name, environment=False) for name in
-                  ("CDCl3", "DMSO-d6", "CD3OD", "acetone-d6", "D2O", "C6D6", "CD3CN", "CD2Cl2")}
+    table = predictors(environment=False)
     by_code: dict[str, dict[int, list[float]]] = defaultdict(lambda: defaultdict(list))
     for n, case in enumerate(cases):
-        found = class_residuals(case, predictors)
+        found = class_residuals(case, table)
         for codes, residual in found or ():
             for code in codes:
                 by_code[code][n].append(residual)

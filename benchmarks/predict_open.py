@@ -23,19 +23,29 @@ from rdkit import Chem
 
 from rank.bench import read_cases
 from rank.predict import Predictor
-from rank.spectra import parse_peak_text, solvent_names
+from rank.spectra import DEFAULT_SOLVENT, parse_peak_text, solvent_names
 
 DATA = Path(__file__).resolve().parent / "data" / "open-spectra.tsv"
 
 
-def per_h_errors(case, predictor: Predictor) -> list[tuple[str, float]] | None:
-    """(family, |observed − predicted|) per H after sorted pairing; None when the H counts differ."""
+def paired_h(case, predictor: Predictor) -> tuple[list, list[tuple[int, float]]] | None:
+    """The non-exchangeable predicted signals and, per H, (signal index, observed shift) after sorting
+    both sides (the pairing with the least absolute error); None when the H counts differ."""
     signals = [s for s in predictor.predict(Chem.MolFromSmiles(case.smiles)) if not s.exchangeable]
-    predicted = sorted((s.shift, s.family) for s in signals for _ in range(s.n_h))
+    predicted = sorted((s.shift, k) for k, s in enumerate(signals) for _ in range(s.n_h))
     observed = sorted(p.shift for p in parse_peak_text(case.peaks).peaks for _ in range(int(p.integral)))
     if len(predicted) != len(observed):
         return None
-    return [(family, abs(o - shift)) for (shift, family), o in zip(predicted, observed)]
+    return signals, [(k, o) for (_, k), o in zip(predicted, observed)]
+
+
+def predictors(environment: bool) -> dict[str, Predictor]:
+    """One predictor per known solvent; a case whose solvent is not reported uses the default."""
+    return {name: Predictor(name, environment=environment) for name in solvent_names()}
+
+
+def predictor_for(case, table: dict[str, Predictor]) -> Predictor:
+    return table.get(case.solvent, table[DEFAULT_SOLVENT])
 
 
 def main(argv: list[str]) -> int:
@@ -44,15 +54,16 @@ def main(argv: list[str]) -> int:
     parser.add_argument("--environment", action="store_true", help="add the fitted environment corrections")
     parser.add_argument("--worst", type=int, default=12)
     args = parser.parse_args(argv)
-    known = set(solvent_names())
-    predictors = {name: Predictor(name, environment=args.environment) for name in known}
+    table = predictors(args.environment)
     errors, by_family, worst, unpaired = [], defaultdict(list), [], 0
     cases = read_cases(str(DATA), args.part)
     for case in cases:
-        found = per_h_errors(case, predictors[case.solvent if case.solvent in known else "CDCl3"])
-        if found is None:
+        paired = paired_h(case, predictor_for(case, table))
+        if paired is None:
             unpaired += 1
             continue
+        signals, pairs = paired
+        found = [(signals[k].family, abs(o - signals[k].shift)) for k, o in pairs]
         errors += [e for _, e in found]
         for family, e in found:
             by_family[family].append(e)
