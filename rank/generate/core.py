@@ -22,7 +22,7 @@ from .atoms import AtomType
 from .fragment import FragmentType
 from .smarts import atom_truth, is_triple_bond_pattern
 
-__all__ = ["PLAN_PROBES", "BondBan", "EnumeratorFactory", "TypeCounts", "VertexType"]
+__all__ = ["CEILING_PROBES", "PLAN_PROBES", "BondBan", "EnumeratorFactory", "TypeCounts", "VertexType"]
 
 VertexType = AtomType | FragmentType
 """A vertex colour of the core: one atom type, or one contracted group."""
@@ -33,6 +33,9 @@ TypeCounts = Sequence[tuple[VertexType, int]]
 PLAN_PROBES = 16
 """Knuth probes (with seed 1) behind an estimate that plans work: the shares of a run and
 the structures a hint removes.  Fixed, so plans are the same on any machine."""
+
+CEILING_PROBES = 64
+"""Knuth probes per run of the ceiling check, which a refusal rests on (more than for planning)."""
 
 
 class BondBan(IntFlag):

@@ -27,7 +27,7 @@ from typing import NamedTuple, cast
 from ..errors import InputError
 from ..formula import Formula, parse_formula
 from .accept import Acceptor, Isomer, Rejection, Why
-from .core import PLAN_PROBES, EnumeratorFactory, TypeCounts
+from .core import CEILING_PROBES, PLAN_PROBES, EnumeratorFactory, TypeCounts
 from .hints import Hint
 from .plan import Distribution, RunPlanner
 from .smarts import compile_smarts
@@ -220,47 +220,21 @@ class IsomerStream:
         Plan
         """
         hinted, pruned = Counter(), Counter()
-        runs = []
+        return Plan(list(self._planned_runs(hinted, pruned)), hinted, pruned)
+
+    def _planned_runs(self, hinted: Counter, pruned: Counter) -> Iterator[TypeCounts]:
+        """Every run of the plan in order, tallying into ``hinted`` and ``pruned`` what planning left out."""
         hinted.update(self._planner.group_removals)
         for d in self._planner.distributions():
             self._count_planned(d, hinted, pruned)
-            runs.extend(d.runs)
-        return Plan(runs, hinted, pruned)
+            yield from d.runs
 
     def estimate_run(self, types: TypeCounts, probes: int = PLAN_PROBES, seed: int = 1) -> float:
-        """Knuth's random-probe estimate of the structures one run builds.
-
-        Parameters
-        ----------
-        types : TypeCounts
-            A run of :meth:`runs`.
-        probes : int, default 16 (:data:`~rank.generate.core.PLAN_PROBES`)
-        seed : int, default 1
-
-        Returns
-        -------
-        float
-        """
+        """:meth:`EnumeratorFactory.estimate <rank.generate.core.EnumeratorFactory.estimate>` of one run."""
         return self._factory.estimate(types, probes, seed)
 
-    def estimate(self, probes: int = 64, seed: int = 1) -> float:
-        """Knuth's random-probe estimate of the structures the core will build.
-
-        Parameters
-        ----------
-        probes : int, default 64
-            Random walks per run.
-        seed : int, default 1
-
-        Returns
-        -------
-        float
-
-        References
-        ----------
-        D. E. Knuth, "Estimating the efficiency of backtrack programs",
-        Math. Comp. 1975, 29, 121. doi:10.1090/S0025-5718-1975-0373371-6
-        """
+    def estimate(self, probes: int = CEILING_PROBES, seed: int = 1) -> float:
+        """The sum of :meth:`estimate_run` over every run: the structures the core will build."""
         return sum(self._factory.estimate(types, probes, seed) for types in self.runs())
 
     def check_ceiling(self) -> None:
@@ -332,13 +306,10 @@ class IsomerStream:
         self.explored, self.removed, self.complete_run = 0, Counter(), False
         self.hinted, self.rejected, self.pruned = Counter(), Counter(), Counter()
         deadline = None if self.budget is None else time.time() + self.budget
-        self.hinted.update(self._planner.group_removals)
-        for d in self._planner.distributions():
-            self._count_planned(d, self.hinted, self.pruned)
-            for types in d.runs:
-                yield from self._run(types, 0, 1, deadline, unbuilt)
-                if deadline is not None and time.time() > deadline:
-                    return
+        for types in self._planned_runs(self.hinted, self.pruned):
+            yield from self._run(types, 0, 1, deadline, unbuilt)
+            if deadline is not None and time.time() > deadline:
+                return
         self.complete_run = True
 
     def _run(self, types: TypeCounts, part: int, parts: int, deadline: float | None,
@@ -383,7 +354,7 @@ def _refusal(hill: str, runs: Iterator[TypeCounts], factory: EnumeratorFactory,
     """The refusal :meth:`IsomerStream.check_ceiling` raises, or None under the ceiling."""
     total = 0.0
     for types in runs:
-        total += factory.estimate(types, 64, 1)
+        total += factory.estimate(types, CEILING_PROBES, 1)
         if total > ceiling:
             break
     else:
