@@ -78,8 +78,7 @@ def _version() -> str:
         return __version__
 
 
-def _workers_help() -> str:
-    return "processes that generate and score (default: the cores this process may use)"
+_WORKERS_HELP = "processes that generate and score (default: the cores this process may use)"
 
 
 def _workers(args: argparse.Namespace) -> int:
@@ -153,7 +152,7 @@ def _add_demo(sub) -> None:
     dem = sub.add_parser("demo", help="identify the demo scenario's four unknowns and write their reports")
     dem.add_argument("--out", default="peakrank-demo-reports", metavar="DIR",
                      help="folder for the reports (a new one: -2, -3, ... is added if it exists)")
-    dem.add_argument("--workers", type=_positive_int, default=None, metavar="N", help=_workers_help())
+    dem.add_argument("--workers", type=_positive_int, default=None, metavar="N", help=_WORKERS_HELP)
     dem.set_defaults(run=_run_demo)
 
 
@@ -170,7 +169,7 @@ def _add_bench(sub) -> None:
                      help="tab-separated known answers: id, name, formula, smiles, solvent, peaks, source")
     ben.add_argument("--only", action="append", default=[], metavar="ID", help="run only these ids (repeatable)")
     ben.add_argument("--no-hints", action="store_true", help="do not narrow the isomer space with hints")
-    ben.add_argument("--workers", type=_positive_int, default=None, metavar="N", help=_workers_help())
+    ben.add_argument("--workers", type=_positive_int, default=None, metavar="N", help=_WORKERS_HELP)
     ben.add_argument("--budget", type=_seconds, metavar="SECONDS", help="time limit per compound")
     ben.add_argument("--ceiling", type=_positive_int, default=None, metavar="N",
                      help="refuse compounds whose isomer space is estimated above N (default 2,000,000)")
@@ -247,7 +246,7 @@ def _add_identify(sub) -> None:
     ide.add_argument("--no-hints", action="store_true",
                      help="do not narrow the isomer space with hints read from the peaks")
     ide.add_argument("--keep-all-peaks", action="store_true", help="do not drop solvent, water and TMS signals")
-    ide.add_argument("--workers", type=_positive_int, default=None, metavar="N", help=_workers_help())
+    ide.add_argument("--workers", type=_positive_int, default=None, metavar="N", help=_WORKERS_HELP)
     ide.add_argument("--budget", type=_seconds, metavar="SECONDS", help="stop scoring after this long and say so")
     ide.add_argument("--ceiling", type=_positive_int, default=None, metavar="N",
                      help="refuse isomer spaces estimated above N structures (default 2,000,000; 0 = no limit)")

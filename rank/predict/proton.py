@@ -16,13 +16,7 @@ once per molecule.
 >>> print(predict_smiles("CCOC(C)=O")[0].explanation)
 CH2 base 1.37 + α OC(=O)R 2.72 = 4.09
 
-References
-----------
-J. N. Shoolery, Varian Associates Tech. Inform. Bull. 1959, 2(3), 2 (additivity for CH2XY).
-C. Pascual, J. Meier, W. Simon, Helv. Chim. Acta 1966, 49, 164. doi:10.1002/hlca.19660490115
-E. Pretsch, P. Buehlmann, M. Badertscher, Structure Determination of Organic Compounds, 4th ed.,
-Springer 2009. doi:10.1007/978-3-540-93810-1
-H. E. Gottlieb, V. Kotlyar, A. Nudelman, J. Org. Chem. 1997, 62, 7512. doi:10.1021/jo971176v
+The references of the arithmetic are in ``rank.predict.shifts`` and ``rank.predict.multiplets``.
 """
 
 from __future__ import annotations
