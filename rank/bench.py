@@ -55,6 +55,9 @@ class Case:
     peaks: str
     source: str
     part: str = "all"
+    carbon: str = ""
+    """The 13C list as the file gives it (the open data's ``c13`` column, an optional ``carbon`` column of a
+    known-answer file); "" when there is none."""
 
 
 @dataclass(frozen=True)
@@ -105,7 +108,7 @@ def read_cases(path: str, part: str = "all") -> list[Case]:
         if mol is None:
             raise InputError(f"{path}: row {r['id']}: SMILES {r['smiles']!r} is not valid")
         case = Case(r["id"], r["name"], r["formula"], Chem.MolToSmiles(mol, isomericSmiles=False),
-                    r["solvent"] or "CDCl3", r["peaks"], r["source"], r.get("part", "all"))
+                    r["solvent"] or "CDCl3", r["peaks"], r["source"], r.get("part", "all"), r.get("carbon") or "")
         if part == "all" or case.part == part:
             cases.append(case)
     return cases
@@ -114,7 +117,8 @@ def read_cases(path: str, part: str = "all") -> list[Case]:
 def _open_row(r: dict[str, str]) -> dict[str, str]:
     return {"id": r["id"], "name": f"NMRShiftDB2 {r['nmrshiftdb2_id']}", "formula": r["formula"],
             "smiles": r["smiles"], "solvent": r["solvent"], "peaks": r["h1"],
-            "source": f"NMRShiftDB2 {r['nmrshiftdb2_id']} (open data)", "part": data_part(r["id"])}
+            "source": f"NMRShiftDB2 {r['nmrshiftdb2_id']} (open data)", "part": data_part(r["id"]),
+            "carbon": r["c13"]}
 
 
 def _supported(formula: str) -> bool:
@@ -154,17 +158,17 @@ def read_library(path: str) -> dict[str, list[str]]:
     return library
 
 
-def run_case(case: Case, library: dict[str, list[str]] | None = None, **options) -> Outcome:
+def run_case(case: Case, library: dict[str, list[str]] | None = None, with_carbon: bool = False,
+             **options) -> Outcome:
     """Identify one case with the known answer tracked; a refused run (e.g. a space
     above the ceiling) is an outcome with the reason, not an error.  With a
-    ``library``, the candidates are the library's structures of the case's formula."""
+    ``library``, the candidates are the library's structures of the case's formula;
+    ``with_carbon`` adds the case's 13C list when it has one."""
     start = time.perf_counter()
+    suspects = None if library is None else library.get(case.formula, [case.smiles])
+    carbon = case.carbon if with_carbon and case.carbon else None
     try:
-        if library is None:
-            result = Identifier(track=case.smiles, **options).identify(case.formula, case.peaks)
-        else:
-            suspects = library.get(case.formula, [case.smiles])
-            result = Identifier(track=case.smiles, **options).identify(case.formula, case.peaks, suspects)
+        result = Identifier(track=case.smiles, **options).identify(case.formula, case.peaks, suspects, carbon=carbon)
     except InputError as exc:
         return Outcome(case, None, 0, time.perf_counter() - start, None, None, None, (), str(exc))
     seconds = time.perf_counter() - start
