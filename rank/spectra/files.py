@@ -12,11 +12,11 @@ import warnings
 from pathlib import Path
 
 from ..errors import InputError
-from .peaks import DASH, NUMBER, Peak, Spectrum, make_peak, number
+from .peaks import DASH, NUMBER, CarbonSpectrum, Peak, Spectrum, make_peak, number
 from .solvents import find_solvent
-from .text import parse_peak_text
+from .text import carbon_peaks, parse_carbon_text, parse_peak_text
 
-__all__ = ["read_peaks"]
+__all__ = ["read_carbon_peaks", "read_peaks"]
 
 
 def _peak_from_fields(shift: str, integral: object, mult: object, j: object, counts_h: bool = False,
@@ -58,23 +58,33 @@ _COLUMNS = {
 
 
 _H_COUNT_COLUMNS = ("n_h", "nh", "h")
+_CARBON_COLUMNS = {
+    "shift": _COLUMNS["shift"],
+    "type": ("type", "dept", "carbon_type", "n_h", "nh", "h", "multiplicity", "mult"),
+    "carbons": ("carbons", "n_c", "nc", "count"),
+    "label": _COLUMNS["label"],
+}
 
 
-def _pick(columns: list[str], role: str) -> str | None:
+def _pick(columns: list[str], role: str, names: dict[str, tuple[str, ...]] = _COLUMNS) -> str | None:
     lowered = {c.strip().lower(): c for c in columns}
-    for name in _COLUMNS[role]:
+    for name in names[role]:
         if name in lowered:
             return lowered[name]
     return None
 
 
-def _read_table_file(path: Path, sep: str) -> Spectrum:
+def _table_frame(path: Path, sep: str):
     import pandas as pd
 
     try:
-        frame = pd.read_csv(path, sep=sep, dtype=str, comment="#", skipinitialspace=True)
+        return pd.read_csv(path, sep=sep, dtype=str, comment="#", skipinitialspace=True)
     except (OSError, ValueError, UnicodeDecodeError, pd.errors.ParserError) as exc:
         raise InputError(f"cannot read {path} as a table: {exc}".splitlines()[0]) from None
+
+
+def _read_table_file(path: Path, sep: str) -> Spectrum:
+    frame = _table_frame(path, sep)
     cols = list(frame.columns)
     shift = _pick(cols, "shift")
     if shift is None:
@@ -143,6 +153,14 @@ def _read_jcamp(path: Path) -> Spectrum:
     """JCAMP-DX peak table: ##PEAK TABLE=(XY..XY) or (XYW..XYW), with optional
     ##PEAK ASSIGNMENTS=(XYMA) for multiplicities (IUPAC JCAMP-DX for NMR,
     A. N. Davies, P. Lampen, Appl. Spectrosc. 1993, 47, 1093)."""
+    rows, field, solvent = _jcamp_rows(path)
+    peaks = tuple(_peak_from_fields(f"{shift:.4f}", y, mult, None) for shift, y, mult in rows)
+    return Spectrum(peaks, field, solvent)
+
+
+def _jcamp_rows(path: Path) -> tuple[list[tuple[float, float, str | None]], float | None, str | None]:
+    """(shift in ppm, Y, multiplicity or None) per line of a JCAMP-DX peak table, the observe
+    frequency (MHz) and the solvent."""
     import nmrglue
 
     try:
@@ -163,15 +181,14 @@ def _read_jcamp(path: Path) -> Spectrum:
         raise InputError(f"{path}: shifts in Hz need ##.OBSERVE FREQUENCY")
     assignments = _find_label(dic, "PEAKASSIGNMENTS")
     mults = _assigned_multiplicities(assignments[0]) if assignments else {}
-    peaks = []
+    found = []
     for line in rows.splitlines():
         numbers = re.findall(NUMBER, line)
         for i in range(0, len(numbers) - 1, 3 if "W" in form.upper() else 2):
             x, y = number(numbers[i]), number(numbers[i + 1])
-            shift = x / field if "HZ" in xunits else x
-            peaks.append(_peak_from_fields(f"{shift:.4f}", y, mults.get(round(x, 3)), None))
+            found.append((x / field if "HZ" in xunits else x, y, mults.get(round(x, 3))))
     solvent = _find_label(dic, ".SOLVENTNAME")
-    return Spectrum(tuple(peaks), field, find_solvent(solvent[0]).id if solvent else None)
+    return found, field, find_solvent(solvent[0]).id if solvent else None
 
 
 def _assigned_multiplicities(text: str) -> dict[float, str]:
@@ -196,33 +213,127 @@ def _assigned_multiplicities(text: str) -> dict[float, str]:
     return found
 
 
+def _read_source(source: str, readers: dict):
+    """Dispatch a file path by its suffix to ``readers`` (keys json, jcamp, text, table; the table reader
+    takes the separator), or read inline text with the text reader."""
+    text = source.strip()
+    suffix = Path(text).suffix.lower() if "\n" not in text and len(text) < 4096 else ""
+    if suffix not in (".csv", ".tsv", ".txt", ".json", ".jdx", ".dx", ".jcamp"):
+        return readers["text"](text)
+    path = Path(text)
+    if not path.is_file():
+        raise InputError(f"peak file {text!r} not found")
+    if suffix == ".json":
+        return readers["json"](path)
+    if suffix in (".jdx", ".dx", ".jcamp"):
+        return readers["jcamp"](path)
+    if suffix == ".txt":
+        try:
+            text_in_file = path.read_text(encoding="utf-8")
+        except (OSError, UnicodeDecodeError) as exc:
+            raise InputError(f"cannot read {path} as text: {exc}".splitlines()[0]) from None
+        return readers["text"](text_in_file)
+    return readers["table"](path, "," if suffix == ".csv" else "\t")
+
+
 def read_peaks(source: str) -> Spectrum:
     """Read peaks from a file (by its suffix) or from inline text.
 
     Raises InputError for unreadable files, unknown formats and malformed text.
     """
-    text = source.strip()
-    suffix = Path(text).suffix.lower() if "\n" not in text and len(text) < 4096 else ""
-    if suffix in (".csv", ".tsv", ".txt", ".json", ".jdx", ".dx", ".jcamp"):
-        path = Path(text)
-        if not path.is_file():
-            raise InputError(f"peak file {text!r} not found")
-        if suffix == ".json":
-            spectrum = _read_json(path)
-        elif suffix in (".jdx", ".dx", ".jcamp"):
-            spectrum = _read_jcamp(path)
-        elif suffix == ".txt":
-            try:
-                text_in_file = path.read_text(encoding="utf-8")
-            except (OSError, UnicodeDecodeError) as exc:
-                raise InputError(f"cannot read {path} as text: {exc}".splitlines()[0]) from None
-            spectrum = parse_peak_text(text_in_file)
-        else:
-            spectrum = _read_table_file(path, "," if suffix == ".csv" else "\t")
-    else:
-        spectrum = parse_peak_text(text)
+    spectrum = _read_source(source, {"json": _read_json, "jcamp": _read_jcamp, "text": parse_peak_text,
+                                     "table": _read_table_file})
     if not spectrum.peaks:
         raise InputError("the peak list is empty")
+    return spectrum
+
+
+# ------------------------------------------------------------------ 13C ----
+
+
+def _carbon_inside_text(kind: object, carbons: object, label: object) -> str:
+    """A file's type, carbon count and label fields written as the parentheses of a 13C list entry,
+    so that :func:`~rank.spectra.text.carbon_peaks` reads them; a bare number in the type field is the
+    carbon's H count (n_h)."""
+    parts = []
+    if not _blank(kind):
+        text = str(kind).strip()
+        if re.fullmatch(r"\d+(?:\.0)?", text):
+            n_h = int(float(text))
+            if n_h > 3:
+                raise InputError(f"a carbon carries 0 to 3 H, not {text}")
+            text = ("C", "CH", "CH2", "CH3")[n_h]
+        parts.append(text)
+    if not _blank(carbons):
+        text = str(carbons).strip()
+        if not re.fullmatch(r"\d+(?:\.0)?", text):
+            raise InputError(f"carbon count {text!r} is not a whole number")
+        parts.append(f"{int(float(text))}C")
+    if not _blank(label):
+        parts.append(str(label).strip())
+    return ", ".join(parts)
+
+
+def _read_carbon_table(path: Path, sep: str) -> CarbonSpectrum:
+    frame = _table_frame(path, sep)
+    cols = list(frame.columns)
+    shift = _pick(cols, "shift", _CARBON_COLUMNS)
+    if shift is None:
+        raise InputError(f"{path}: no shift column; name one of {', '.join(_COLUMNS['shift'])}")
+    roles = {r: _pick(cols, r, _CARBON_COLUMNS) for r in ("type", "carbons", "label")}
+    rows = [
+        (row[shift], _carbon_inside_text(*(row[roles[r]] if roles[r] else None for r in ("type", "carbons", "label"))))
+        for _, row in frame.iterrows()
+        if isinstance(row[shift], str) and row[shift].strip()
+    ]
+    return CarbonSpectrum(carbon_peaks(rows))
+
+
+def _read_carbon_json(path: Path) -> CarbonSpectrum:
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError) as exc:
+        raise InputError(f"cannot read {path} as JSON: {exc}") from None
+    items = data.get("peaks") if isinstance(data, dict) else data
+    if not isinstance(items, list):
+        raise InputError(f"{path}: expected a list of peaks or an object with a 'peaks' list")
+    rows = []
+    for item in items:
+        if not isinstance(item, dict) or "shift" not in item:
+            raise InputError(f"{path}: each 13C peak needs a 'shift'")
+        kind = next((item[k] for k in ("type", "dept", "n_h", "multiplicity") if k in item), None)
+        rows.append((str(item["shift"]), _carbon_inside_text(kind, item.get("carbons"),
+                                                             item.get("label", item.get("assignment")))))
+    field = data.get("field_mhz") if isinstance(data, dict) else None
+    try:
+        field = float(field) if field else None
+    except (TypeError, ValueError):
+        raise InputError(f"{path}: field_mhz {field!r} is not a number of MHz") from None
+    solvent = data.get("solvent") if isinstance(data, dict) else None
+    return CarbonSpectrum(carbon_peaks(rows), field, find_solvent(solvent).id if solvent else None)
+
+
+def _read_carbon_jcamp(path: Path) -> CarbonSpectrum:
+    """JCAMP-DX 13C peak table: shifts from ##PEAK TABLE (Y, the intensity, is not used), carbon types
+    or off-resonance letters from the M of ##PEAK ASSIGNMENTS when given (as :func:`read_peaks`)."""
+    rows, field, solvent = _jcamp_rows(path)
+    return CarbonSpectrum(carbon_peaks([(f"{shift:.4f}", mult or "") for shift, _, mult in rows]), field, solvent)
+
+
+def read_carbon_peaks(source: str) -> CarbonSpectrum:
+    """Read 13C peaks from a file (by its suffix) or from inline text, as :func:`read_peaks` reads 1H.
+
+    A CSV or TSV table needs a shift column (``shift``, ``delta``, ``ppm``, ...) and may have a type
+    column (``type``, ``dept``: C, CH, CH2, CH3, Cq or s/d/t/q; or ``n_h``: 0 to 3), a ``carbons``
+    column (carbons in the line) and a ``label`` column; JSON is a list of such objects or
+    ``{"peaks": [...], "solvent": ..., "field_mhz": ...}``; a ``.txt`` file holds an inline list.
+
+    Raises InputError for unreadable files, unknown formats and malformed text.
+    """
+    spectrum = _read_source(source, {"json": _read_carbon_json, "jcamp": _read_carbon_jcamp,
+                                     "text": parse_carbon_text, "table": _read_carbon_table})
+    if not spectrum.peaks:
+        raise InputError("the 13C peak list is empty")
     return spectrum
 
 

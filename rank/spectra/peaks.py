@@ -19,23 +19,34 @@ from ..errors import InputError
 from ..tables import read_table
 
 __all__ = [
+    "CARBON_SHIFT_RANGE",
+    "CARBON_TYPES",
     "DASH",
     "DEFAULT_FIELD_MHZ",
     "MULTIPLET_NAMES",
     "NUMBER",
     "SHIFT_RANGE",
+    "CarbonPeak",
+    "CarbonSpectrum",
     "Dropped",
     "Peak",
     "Spectrum",
     "coupling_groups",
+    "format_carbon_peaks",
     "format_peaks",
+    "make_carbon_peak",
     "make_peak",
     "normalise_multiplicity",
     "number",
-    "observation_rule"
+    "observation_rule",
 ]
 
 SHIFT_RANGE = (-1.0, 16.0)
+CARBON_SHIFT_RANGE = (-30.0, 240.0)
+"""13C shifts accepted (ppm): ketones reach about 220, iodomethane lies near -24 (the open data's
+CH3I row), Si(CH3) carbons near -5; a value outside is a typing slip or a 1H list (common practice)."""
+CARBON_TYPES = {0: "C", 1: "CH", 2: "CH2", 3: "CH3"}
+"""The carbon type (DEPT name) of a carbon with n H."""
 _SIMPLE = {"s": 0, "d": 1, "t": 2, "q": 3, "quint": 4, "sext": 5, "sept": 6}
 MULTIPLET_NAMES = {n: name for name, n in _SIMPLE.items() if n}
 """The first-order multiplet of n equivalent partners (n+1 rule): 1 d, 2 t, 3 q, 4 quint, 5 sext, 6 sept."""
@@ -120,10 +131,54 @@ class Spectrum:
 
 
 @dataclass(frozen=True)
-class Dropped:
-    """A peak taken out as solvent, water or reference, with the reason."""
+class CarbonPeak:
+    """One observed 13C line.
 
-    peak: Peak
+    Attributes
+    ----------
+    shift : ppm.
+    n_h : H on the carbon when the list says (DEPT or APT type ``C``/``Cq``, ``CH``, ``CH2``, ``CH3``,
+        or the letters s, d, t, q of an off-resonance list): 0, 1, 2 or 3; None when not given.
+    label : the chemist's assignment written with the peak (``C=O``, ``OCH3``, ``C-2``), or "".
+    carbons : carbons in this one line when written (``2C``, ``2 × CH``); None when not given.
+    multiplicity : a splitting written that is not an H count: coupling to 19F, 31P or D in a
+        proton-decoupled list (``d, J = 245 Hz``), normalised as for 1H; None when not written.
+    j : its coupling constants in Hz, as given.
+    """
+
+    shift: float
+    n_h: int | None = None
+    label: str = ""
+    carbons: int | None = None
+    multiplicity: str | None = None
+    j: tuple[float, ...] = ()
+
+    @property
+    def dept(self) -> str | None:
+        """The carbon type ``C``, ``CH``, ``CH2`` or ``CH3``; None when the list does not say."""
+        return None if self.n_h is None else CARBON_TYPES[self.n_h]
+
+    @property
+    def caption(self) -> str:
+        """Short text for the peak: its shift and type, e.g. ``60.4 (CH2)``."""
+        return f"{self.shift:.1f} ({self.dept})" if self.dept else f"{self.shift:.1f}"
+
+
+@dataclass(frozen=True)
+class CarbonSpectrum:
+    """A 13C peak list with the field (13C frequency, MHz) and solvent its header or file gives."""
+
+    peaks: tuple[CarbonPeak, ...]
+    field_mhz: float | None = None
+    solvent: str | None = None
+
+
+@dataclass(frozen=True)
+class Dropped:
+    """A peak (1H :class:`Peak` or 13C :class:`CarbonPeak`) taken out as solvent, water or reference,
+    with the reason."""
+
+    peak: Peak | CarbonPeak
     reason: str
 
 
@@ -215,3 +270,43 @@ def make_peak(a: float, b: float | None, integral: float | None, mult: str | Non
         raise InputError(f"peak at {(low + high) / 2:g} ppm: J values must lie between 0 and 40 Hz")
     multiplicity = None if mult is None else normalise_multiplicity(mult)
     return Peak(round((low + high) / 2, 4), low, high, integral, multiplicity, j, label, counted)
+
+
+def make_carbon_peak(shift: float, n_h: int | None = None, label: str = "", carbons: int | None = None,
+                     multiplicity: str | None = None, j: tuple[float, ...] = ()) -> CarbonPeak:
+    """A checked :class:`CarbonPeak`: InputError for a shift outside :data:`CARBON_SHIFT_RANGE`, a
+    carbon count below 1, or a J outside 0 to 500 Hz."""
+    low, high = CARBON_SHIFT_RANGE
+    if not low <= shift <= high:
+        raise InputError(f"13C shift {shift:g} ppm is outside {low:g} to {high:g} ppm")
+    if carbons is not None and carbons < 1:
+        raise InputError(f"13C peak at {shift:g} ppm: a carbon count of {carbons} must be at least 1")
+    if any(x <= 0 or x > 500 for x in j):
+        raise InputError(f"13C peak at {shift:g} ppm: J values must lie between 0 and 500 Hz")
+    mult = None if multiplicity is None else normalise_multiplicity(multiplicity)
+    return CarbonPeak(round(shift, 4), n_h, label, carbons, mult, j)
+
+
+def format_carbon_peaks(peaks) -> str:
+    """The 13C peaks in the paper style :func:`~rank.spectra.text.parse_carbon_text` reads back.
+
+    >>> format_carbon_peaks([CarbonPeak(170.9, 0, "C=O"), CarbonPeak(128.5, 1, "", 2), CarbonPeak(21.0)])
+    '170.9 (C, C=O), 128.5 (2C, CH), 21.0'
+    """
+    return ", ".join(_format_carbon_peak(p) for p in peaks)
+
+
+def _format_carbon_peak(p: CarbonPeak) -> str:
+    where = f"{p.shift:.1f}" if round(p.shift, 1) == p.shift else f"{p.shift:.4f}".rstrip("0")
+    inside = []
+    if p.multiplicity:
+        inside.append(p.multiplicity)
+    if p.j:
+        inside.append("J = " + ", ".join(f"{j:g}" for j in p.j) + " Hz")
+    if p.carbons is not None:
+        inside.append(f"{p.carbons}C")
+    if p.dept:
+        inside.append(p.dept)
+    if p.label:
+        inside.append(p.label)
+    return f"{where} ({', '.join(inside)})" if inside else where

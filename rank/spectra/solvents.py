@@ -15,11 +15,11 @@ from functools import cache
 
 from ..errors import InputError
 from ..tables import read_table
-from .peaks import Dropped, Peak, observation_rule
+from .peaks import CarbonPeak, CarbonSpectrum, Dropped, Peak, observation_rule
 
 __all__ = [
-    "DEFAULT_SOLVENT", "Solvent", "drop_labelled_peaks", "drop_solvent_signals", "find_solvent",
-    "solvent_names"
+    "DEFAULT_SOLVENT", "Solvent", "drop_carbon_solvent_signals", "drop_labelled_peaks", "drop_solvent_signals",
+    "find_solvent", "solvent_names",
 ]
 
 DEFAULT_SOLVENT = "CDCl3"
@@ -38,6 +38,18 @@ class Solvent:
     tolerance_residual: float
     tolerance_water: float
     tms: float
+    carbon: tuple[float, ...] = ()
+    """The solvent's own 13C signals, ppm (none for D2O)."""
+    carbon_multiplicity: tuple[str, ...] = ()
+    """The pattern of each 13C signal (coupling to D): t, quint, sept, or s."""
+    carbon_j_cd: tuple[float, ...] = ()
+    """The one-bond 13C-2H coupling of each 13C signal, Hz (0 for a carbon without D)."""
+    tolerance_carbon: float = 0.25
+    """ppm: how far an observed 13C line may sit from a solvent value and still be taken as it."""
+
+
+def _floats(text: str) -> tuple[float, ...]:
+    return tuple(float(x) for x in text.split(",") if x.strip())
 
 
 @cache
@@ -46,7 +58,9 @@ def _solvents() -> dict[str, Solvent]:
     for r in read_table("solvents"):
         s = Solvent(r["id"], float(r["residual"]), r["residual_multiplicity"], float(r["water"]),
                     r["exchange"] == "yes", float(r["tolerance_residual"]),
-                    float(r["tolerance_water"]), float(r["tms"]))
+                    float(r["tolerance_water"]), float(r["tms"]), _floats(r["carbon"]),
+                    tuple(x.strip() for x in r["carbon_multiplicity"].split(",") if x.strip()),
+                    _floats(r["carbon_j_cd"]), float(r["tolerance_carbon"]))
         for name in [r["id"], *r["aliases"].split(",")]:
             table[name.strip().lower()] = s
     return table
@@ -109,6 +123,78 @@ def _looks_like_water(p: Peak, solvent: Solvent) -> bool:
     if off <= solvent.tolerance_residual:
         return True
     return off <= solvent.tolerance_water and (p.integral is None or p.broad)
+
+
+_LINES = {"s": 1, "t": 3, "quint": 5, "sept": 7}
+
+
+def drop_carbon_solvent_signals(spectrum: CarbonSpectrum, solvent: Solvent | str | None = None
+                                ) -> tuple[CarbonSpectrum, tuple[Dropped, ...]]:
+    """Remove the 13C lines of the solvent and of TMS, and lines labelled as solvent or reference.
+
+    ``solvent`` is a :class:`Solvent` or its name; None takes the spectrum's own, else
+    :data:`DEFAULT_SOLVENT`.  First the lines whose label is a solvent, water or reference name
+    (``rules/peak_labels.tsv``, as :func:`drop_labelled_peaks`) go; then, by value, a line within the
+    solvent's ``tolerance_carbon`` of one of its 13C signals (or of TMS at 0.00) that says nothing
+    of its own: no carbon type, no carbon count and no label, or a written splitting equal to the
+    solvent's (``77.2 (t)`` in CDCl3).  A line typed C, CH, CH2 or CH3, counted (``2C``) or
+    labelled is the compound's own: the solvent carbons carry no H and papers rarely list them
+    (common practice).  When the centre line of a solvent multiplet goes, its outer lines (spaced
+    by J(C,D) / the 13C frequency, the spectrum's field) go too when written the same bare way.
+
+    >>> spec, dropped = drop_carbon_solvent_signals(
+    ...     CarbonSpectrum((CarbonPeak(170.9, 0), CarbonPeak(77.16), CarbonPeak(60.4, 2)), 101.0, "CDCl3"))
+    >>> [p.shift for p in spec.peaks], [d.reason for d in dropped]
+    ([170.9, 60.4], ['residual CDCl3'])
+    """
+    chosen = solvent if isinstance(solvent, Solvent) else find_solvent(solvent or spectrum.solvent
+                                                                       or DEFAULT_SOLVENT)
+    kept, labelled = drop_labelled_peaks(spectrum.peaks)
+    reasons = [_carbon_reason(p, chosen) for p in kept]
+    dropped_at = [p.shift for p, reason in zip(kept, reasons) if reason and reason.startswith("residual")]
+    outer = _outer_lines(chosen, dropped_at, spectrum.field_mhz)
+    out, by_value = [], []
+    for p, reason in zip(kept, reasons):
+        if reason is None and _bare(p) and any(abs(p.shift - x) <= 0.05 for x in outer):
+            reason = f"residual {chosen.id} (outer line)"
+        if reason:
+            by_value.append(Dropped(p, reason))
+        else:
+            out.append(p)
+    dropped = sorted(labelled + tuple(by_value), key=lambda d: spectrum.peaks.index(d.peak))
+    return CarbonSpectrum(tuple(out), spectrum.field_mhz, spectrum.solvent), tuple(dropped)
+
+
+def _bare(p: CarbonPeak) -> bool:
+    """The line says nothing of its own: no type, count, label or splitting."""
+    return p.n_h is None and p.carbons is None and not p.label and p.multiplicity is None
+
+
+def _carbon_reason(p: CarbonPeak, solvent: Solvent) -> str | None:
+    # TMS is a singlet, or a quartet in an off-resonance list
+    plain_singlet = p.multiplicity in ("s", "q") and not p.j and p.carbons is None and not p.label
+    if (_bare(p) or plain_singlet) and abs(p.shift - solvent.tms) <= solvent.tolerance_carbon:
+        return "TMS reference"
+    for value, pattern in zip(solvent.carbon, solvent.carbon_multiplicity):
+        if abs(p.shift - value) > solvent.tolerance_carbon:
+            continue
+        own_pattern = p.multiplicity == pattern and not p.j and p.carbons is None and not p.label
+        if _bare(p) or own_pattern:
+            return f"residual {solvent.id}"
+    return None
+
+
+def _outer_lines(solvent: Solvent, centres: list[float], field_mhz: float | None) -> list[float]:
+    """Where the outer lines of the solvent multiplets whose centre line was dropped lie (ppm), measured
+    from the dropped centre line (the list's own referencing)."""
+    if not field_mhz:
+        return []
+    lines = []
+    for value, pattern, j in zip(solvent.carbon, solvent.carbon_multiplicity, solvent.carbon_j_cd):
+        for centre in (c for c in centres if abs(c - value) <= solvent.tolerance_carbon):
+            half = (_LINES.get(pattern, 1) - 1) // 2
+            lines.extend(centre + k * j / field_mhz for k in range(-half, half + 1) if k)
+    return lines
 
 
 @cache
