@@ -42,23 +42,24 @@ candidate predicts more resolved signals than were seen.
 
 from __future__ import annotations
 
+import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 from functools import cache
 from itertools import pairwise
-from typing import TYPE_CHECKING, NamedTuple
+from typing import TYPE_CHECKING, NamedTuple, Protocol
 
 import numpy as np
 from scipy.optimize import linear_sum_assignment
 
-from .spectra import MULTIPLET_NAMES, Peak, coupling_groups
+from .spectra import MULTIPLET_NAMES, CarbonPeak, Peak, coupling_groups
 
 if TYPE_CHECKING:
-    from collections.abc import Sequence
-
     from .predict import Signal
 
 __all__ = [
-    "DEFAULT_SETTINGS", "Match", "MisfitParts", "Pairing", "Settings", "coupling_penalty", "match",
+    "DEFAULT_CARBON_SETTINGS", "DEFAULT_SETTINGS", "CarbonClass", "CarbonMatch", "CarbonParts", "CarbonSettings",
+    "Match", "MisfitParts", "Pairing", "Settings", "coupling_penalty", "match", "match_carbons",
     "multiplicity_penalty", "without_small_couplings",
 ]
 
@@ -411,3 +412,191 @@ def match(signals: Sequence[Signal], peaks: tuple[Peak, ...], counts: tuple[int,
     n_h = len(costs.rows)
     observed_h = max(n_h, 1) if not any(counts) else max(n_h - missing, 1)
     return _score(signals, peaks, placed, costs, observed_h, settings)
+
+
+# ------------------------------------------------------------------ 13C ----
+#
+# One row per predicted carbon class (symmetry-equivalent carbons share one line), one column per
+# slot: each observed line offers a first slot and a second one (two classes in one line: accidental
+# overlap) at extra cost, and each class may stay unplaced.  The misfit is a mean per class, every
+# part in units of one class's squared residual:
+#
+#     misfit = S + T + O + U + E,  each part divided by n, the number of classes
+#
+#     S = Σ_placed classes min(((δ_obs - δ_pred) / σ)^2, z_cap)                     shift residuals
+#     T = type_mismatch · classes placed in a line whose written type (C, CH, CH2, CH3) is another
+#         (infinite by default: never; a line without a type accepts any class)
+#     O = overlap · lines holding two classes (none when the line's written carbon count is 2 or more)
+#     U = Σ_unplaced classes (unplaced_quaternary for a C, unplaced_protonated for CH, CH2, CH3)
+#     E = empty_line · observed lines holding no class
+#
+# E enters the assignment as a reward of ``empty_line`` for a line's first slot, so one Hungarian
+# assignment finds the cheapest total: filling a line saves E, a second class in it does not.
+
+
+class CarbonClass(Protocol):
+    """What :func:`match_carbons` reads of a predicted carbon signal (``rank.predict.carbon.CarbonSignal``)."""
+
+    shift: float        # ppm
+    n_h: int            # H on each carbon of the class: 0, 1, 2 or 3
+    sigma: float        # ppm, the prediction's uncertainty
+    atoms: Sequence[int]  # the equivalent carbons: they share one line
+
+
+@dataclass(frozen=True)
+class CarbonSettings:
+    """Weights of the 13C misfit (see :func:`match_carbons` and the comment above :class:`CarbonClass`).
+
+    Every cost is in units of one class's squared residual ((δ_obs - δ_pred) / σ)², and the misfit
+    divides the sum by the number of classes, so the trade-offs (place a class far off, leave it
+    unplaced, share a line, leave a line empty) are the same for small and large molecules.  The
+    values are choices of this program, not chemical constants.
+    """
+
+    z_cap: float = 9.0
+    """Largest squared residual one class adds to S (a 3 σ miss), as ``Settings.z_cap`` for 1H: one far-off
+    shift does not swamp the rest."""
+    type_mismatch: float = math.inf
+    """Cost of a class placed in a line typed otherwise (C, CH, CH2, CH3 by DEPT, APT or off-resonance
+    letters): infinite, never, since a written type is an observation of the H on that carbon; a finite
+    value lets a caller soften it for lists whose types may be slips."""
+    overlap: float = 2.0
+    """Cost of a second class in one line (as a 1.4 σ miss): two inequivalent carbons within a list's
+    0.1 ppm are common among aromatic CH (accidental overlap; common practice), but each one makes the
+    candidate's count of distinct carbons fit less well."""
+    unplaced_quaternary: float = 4.0
+    """Cost of a class without H left with no line (as a 2 σ miss): quaternary carbons relax slowly and
+    gain no NOE, so their lines are weak and often missing from lists (common practice)."""
+    unplaced_protonated: float = 9.0
+    """Cost of a CH, CH2 or CH3 class left with no line, equal to ``z_cap``: these lines are strong and
+    seldom missed, so such a class always takes a free line of its type, however far."""
+    empty_line: float = 4.0
+    """Cost of an observed line that holds no class (as a 2 σ miss): more lines than the candidate's
+    distinct carbons means its symmetry is wrong (solvent lines are dropped before matching)."""
+
+
+DEFAULT_CARBON_SETTINGS = CarbonSettings()
+
+
+class CarbonParts(NamedTuple):
+    """The parts of the 13C misfit, each divided by the number of classes: S (shift), T (type),
+    O (overlap), U (unplaced classes) and E (empty lines), each shown on its own."""
+
+    shift: float
+    type: float
+    overlap: float
+    unplaced: float
+    empty: float
+
+    @property
+    def total(self) -> float:
+        """S + T + O + U + E."""
+        return self.shift + self.type + self.overlap + self.unplaced + self.empty
+
+
+class CarbonMatch(NamedTuple):
+    """The assignment of one candidate's carbon classes to the observed 13C lines and its misfit.
+
+    Attributes
+    ----------
+    misfit : (S + T + O + U + E) / number of classes, rounded to 6 decimals.
+    parts : the five parts.
+    pairs : (class index, line index or None when unplaced) per predicted class, in order.
+    z : per class, (observed - predicted) / σ of its line; None when unplaced.
+    """
+
+    misfit: float
+    parts: CarbonParts
+    pairs: tuple[tuple[int, int | None], ...]
+    z: tuple[float | None, ...] = ()
+
+
+_NEVER = 1e9   # a cost no assignment takes while an unplaced slot is open (every class has one)
+
+
+def match_carbons(signals: Sequence[CarbonClass], peaks: tuple[CarbonPeak, ...],
+                  settings: CarbonSettings = DEFAULT_CARBON_SETTINGS) -> CarbonMatch:
+    """Assign predicted carbon classes to observed 13C lines and score the assignment.
+
+    Parameters
+    ----------
+    signals : sequence of rank.predict.carbon.CarbonSignal
+        One per symmetry class of carbon: ``shift``, ``n_h``, ``sigma`` and ``atoms`` are read.
+    peaks : tuple of rank.spectra.CarbonPeak
+        The observed lines, solvent already dropped; ``n_h`` (the written type) and ``carbons`` are read.
+    settings : CarbonSettings
+        Weights; default :data:`DEFAULT_CARBON_SETTINGS`.
+
+    Returns
+    -------
+    CarbonMatch
+
+    Notes
+    -----
+    Rows are classes; columns are two slots per line and one unplaced slot per class.  Slot costs:
+    first slot min(z², z_cap) - empty_line, second slot min(z², z_cap) + overlap, either plus
+    ``type_mismatch`` against a line typed otherwise; unplaced slot ``unplaced_quaternary`` or
+    ``unplaced_protonated``.  The cheapest assignment (Hungarian algorithm, scipy's
+    ``linear_sum_assignment``) plus empty_line per line, divided by the number of classes, is the
+    misfit.  Pure and deterministic.
+
+    Examples
+    --------
+    >>> from typing import NamedTuple
+    >>> class C(NamedTuple):
+    ...     shift: float
+    ...     n_h: int
+    ...     sigma: float
+    ...     atoms: tuple
+    >>> from rank.spectra import parse_carbon_text
+    >>> ethyl_acetate = [C(171.1, 0, 2.0, (1,)), C(60.5, 2, 2.0, (3,)), C(21.0, 3, 2.0, (0,)), C(14.2, 3, 2.0, (4,))]
+    >>> m = match_carbons(ethyl_acetate, parse_carbon_text("170.9 (C), 60.4 (CH2), 21.0 (CH3), 14.2 (CH3)").peaks)
+    >>> m.pairs, m.misfit
+    (((0, 0), (1, 1), (2, 2), (3, 3)), 0.003125)
+
+    References
+    ----------
+    H. W. Kuhn, "The Hungarian method for the assignment problem", Naval Res. Logist. Q. 1955,
+    2, 83. doi:10.1002/nav.3800020109
+    """
+    n, m = len(signals), len(peaks)
+    if n == 0:
+        parts = CarbonParts(0.0, 0.0, 0.0, 0.0, settings.empty_line * m)
+        return CarbonMatch(round(parts.total, 6), parts, (), ())   # no class: each empty line counts whole
+    shifts = np.array([s.shift for s in signals], dtype=float)
+    sigmas = np.array([s.sigma for s in signals], dtype=float)
+    observed = np.array([p.shift for p in peaks], dtype=float).reshape(1, m)
+    residual = (observed - shifts[:, None]) / sigmas[:, None]
+    z2 = np.minimum(residual ** 2, settings.z_cap)
+    crossed = np.array([[p.n_h is not None and p.n_h != s.n_h for p in peaks] for s in signals],
+                       dtype=bool).reshape(n, m)
+    type_cost = np.where(crossed, min(settings.type_mismatch, _NEVER), 0.0)
+    shared = np.array([0.0 if (p.carbons or 0) >= 2 else settings.overlap for p in peaks]).reshape(1, m)
+    unplaced = np.array([settings.unplaced_quaternary if s.n_h == 0 else settings.unplaced_protonated
+                         for s in signals])
+    first = z2 + type_cost - settings.empty_line
+    second = z2 + type_cost + shared
+    absent = np.full((n, n), _NEVER)
+    np.fill_diagonal(absent, unplaced)
+    rows, cols = linear_sum_assignment(np.hstack([first, second, absent]))
+
+    where: dict[int, int | None] = {}
+    shift_part = type_part = overlap_part = unplaced_part = 0.0
+    for r, c in zip(rows.tolist(), cols.tolist()):
+        if c >= 2 * m:
+            where[r] = None
+            unplaced_part += unplaced[r]
+            continue
+        p = c % m
+        where[r] = p
+        shift_part += z2[r, p]
+        if crossed[r, p]:
+            type_part += settings.type_mismatch
+        if c >= m:
+            overlap_part += shared[0, p]
+    empty = m - len({p for p in where.values() if p is not None})
+    parts = CarbonParts(float(shift_part) / n, float(type_part) / n, float(overlap_part) / n,
+                        float(unplaced_part) / n, settings.empty_line * empty / n)
+    pairs = tuple((i, where[i]) for i in range(n))
+    z = tuple(None if p is None else float(residual[i, p]) for i, p in pairs)
+    return CarbonMatch(round(parts.total, 6), parts, pairs, z)
