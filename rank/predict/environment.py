@@ -83,19 +83,22 @@ def environment_codes(mol: Chem.Mol, atom: int, radius: int = MAX_RADIUS) -> tup
 
 
 @cache
-def _corrections() -> dict[str, Correction]:
+def _corrections(name: str) -> dict[str, Correction]:
     table = {}
-    for r in read_table("environment"):
+    for r in read_table(name):
         table[r["code"]] = Correction(r["code"], int(r["radius"]), int(r["compounds"]), float(r["mean"]),
                                       float(r["sd"]))
     return table
 
 
-def find_correction(codes: tuple[str, ...]) -> Correction | None:
-    """The fitted correction of the largest-radius code in the table, or None."""
-    table = _corrections()
+def find_correction(codes: tuple[str, ...], table: str = "environment") -> Correction | None:
+    """The fitted correction of the largest-radius code found in ``rules/<table>.tsv``, or None.
+
+    ``table``: ``environment`` (1H, the default) or ``carbon_environment`` (13C).
+    """
+    corrections = _corrections(table)
     for code in reversed(codes):
-        found = table.get(code)
+        found = corrections.get(code)
         if found is not None:
             return found
     return None

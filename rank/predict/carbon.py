@@ -1,0 +1,572 @@
+"""Predicted 13C shifts: each a sum of named terms read from the ``rules/carbon_*.tsv`` tables.
+
+One signal per symmetry class of carbon (topological symmetry), with its DEPT type:
+
+* sp3 carbon: Grant-Paul increments of the sp3 carbons one to four bonds away (reached through
+  sp3 carbons), steric corrections for branching, increments of the other substituents
+  (heteroatoms, C=O, CN, aryl, vinyl, ...) at alpha, beta and gamma, a ring correction and
+  corrections for crowded carbons (``carbon_sp3.tsv``, ``carbon_sp3_substituent.tsv``);
+* alkene carbon: 123.3 + alkyl position increments (alpha, beta, gamma on the carbon's side,
+  alpha', beta', gamma' on its partner's) + substituent increments (``carbon_alkene.tsv``);
+  alkyne carbon likewise from 71.9 (``carbon_alkyne.tsv``);
+* aromatic carbon of a six-membered ring: 128.5 + ipso, ortho, meta and para increments of the
+  substituents, aza increments of pyridine-type ring N and fused-ring increments
+  (``carbon_benzene.tsv``); of a five-membered ring: the parent heterocycle's value at the position
+  (``carbon_heteroaromatic.tsv``) + the same substituent increments;
+* carbonyl, carboxyl (acids, esters, amides, carbamates, ...), nitrile, imine and other carbons:
+  a typical value by class (``carbon_functional.tsv``);
+* then, optionally, an environment correction fitted on real spectra (``carbon_environment.tsv``,
+  ``rank.predict.environment``), as one more named term.
+
+The solvent is checked but no solvent correction is applied (13C shifts move little between the
+common solvents; the fitted corrections absorb the average).
+
+>>> [(s.shift, s.dept) for s in predict_carbon_smiles("CCOC(C)=O", environment=False)]
+[(172.5, 'C'), (57.8, 'CH2'), (17.7, 'CH3'), (12.8, 'CH3')]
+>>> print(predict_carbon_smiles("CCOC(C)=O", environment=False)[1].explanation)
+base −2.30 + α C 9.10 + α OC(=O)R 51.00 = 57.80
+
+References are given in the header of each table.
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from dataclasses import dataclass
+from functools import cache, cached_property
+from typing import NamedTuple
+
+from rdkit import Chem
+
+from ..errors import InputError
+from ..spectra import DEFAULT_SOLVENT, find_solvent
+from ..tables import read_table
+from .environment import environment_codes, find_correction
+from .shifts import Term
+
+__all__ = ["CARBON_FAMILIES", "CARBON_RADIUS", "CarbonPredictor", "CarbonSignal", "predict_carbon_smiles"]
+
+CARBON_FAMILIES = ("carbonyl", "carboxyl", "nitrile", "aromatic", "heteroaromatic", "alkene", "alkyne", "sp3")
+CARBON_RADIUS = 4
+"""Spheres of the environment codes used for the 13C correction."""
+ENVIRONMENT_TABLE = "carbon_environment"
+_DEPT = ("C", "CH", "CH2", "CH3")
+_HETERO = frozenset({7, 8, 9, 16, 17, 35, 53})
+_MAX_MATCHES = 100_000
+
+
+@dataclass(frozen=True)
+class CarbonSignal:
+    """One predicted 13C signal.
+
+    Attributes
+    ----------
+    shift : ppm against TMS; the sum of ``terms``.
+    n_h : H on each carbon: 0 C, 1 CH, 2 CH2, 3 CH3 (the DEPT type).
+    atoms : the symmetry-equivalent carbons of this signal (input atom indices).
+    sigma : uncertainty of ``shift`` (ppm, one standard deviation).
+    terms : the arithmetic: base value first, then each named increment.
+    family : carbonyl, carboxyl (acids and their derivatives), nitrile, aromatic, heteroaromatic,
+        alkene, alkyne or sp3.
+    rows : the table rows the shift was computed from, as ``table:row id``.
+    """
+
+    shift: float
+    n_h: int
+    atoms: tuple[int, ...]
+    sigma: float
+    terms: tuple[Term, ...]
+    family: str
+    rows: tuple[str, ...] = ()
+
+    @property
+    def dept(self) -> str:
+        """The DEPT type: C, CH, CH2 or CH3."""
+        return _DEPT[min(self.n_h, 3)]
+
+    @property
+    def explanation(self) -> str:
+        """The arithmetic as text, e.g. ``base −2.30 + α C 9.10 + α OC(=O)R 51.00 = 57.80``."""
+        first, *rest = self.terms
+        parts = [f"{first.name} {first.value:.2f}".replace("-", "−")]
+        for t in rest:
+            parts.append(f"{'+' if t.value >= 0 else '−'} {t.name} {abs(t.value):.2f}")
+        return " ".join(parts) + f" = {self.shift:.2f}"
+
+    def to_json(self) -> dict:
+        """The signal as a JSON-ready dictionary."""
+        return {
+            "shift": self.shift,
+            "n_h": self.n_h,
+            "dept": self.dept,
+            "atoms": list(self.atoms),
+            "sigma": self.sigma,
+            "family": self.family,
+            "explanation": self.explanation,
+            "terms": [[t.name, t.value] for t in self.terms],
+            "rows": list(self.rows),
+        }
+
+
+# ---------------------------------------------------------------- tables ----
+
+
+class _Row(NamedTuple):
+    """A table row: its fields as text, its compiled SMARTS (None without one) and key ``table:id``."""
+
+    fields: dict[str, str]
+    query: Chem.Mol | None
+    key: str
+
+    def num(self, column: str) -> float | None:
+        text = self.fields.get(column, "")
+        return float(text) if text.strip() else None
+
+    @property
+    def label(self) -> str:
+        return self.fields["label"]
+
+
+def _rows(table: str, id_column: str = "id") -> list[_Row]:
+    rows = []
+    for fields in read_table(table):
+        smarts = fields.get("smarts", "")
+        query = Chem.MolFromSmarts(smarts) if smarts else None
+        if smarts and query is None:
+            raise ValueError(f"rules/{table}.tsv: row {fields[id_column]!r}: SMARTS {smarts!r} does not parse")
+        rows.append(_Row(fields, query, f"{table}:{fields[id_column]}"))
+    return rows
+
+
+class _Tables(NamedTuple):
+    sp3: dict[str, list[_Row]]             # by kind: base, position, steric, ring, site
+    sp3_substituent: list[_Row]
+    benzene: dict[str, list[_Row]]         # by kind: base, aza, fused, site, increment
+    heteroaromatic: list[_Row]
+    alkene: dict[str, list[_Row]]          # by kind: base, position, pair, ring, substituent
+    alkyne: dict[str, list[_Row]]
+    functional: list[_Row]
+    sigma: dict[str, tuple[float, float]]
+
+
+def _by_kind(rows: list[_Row], column: str = "kind") -> dict[str, list[_Row]]:
+    kinds: dict[str, list[_Row]] = defaultdict(list)
+    for r in rows:
+        kinds[r.fields[column]].append(r)
+    return dict(kinds)
+
+
+@cache
+def _tables() -> _Tables:
+    sigma = {r["family"]: (float(r["sigma"]), float(r["sigma_environment"])) for r in read_table("carbon_sigma")}
+    return _Tables(
+        sp3=_by_kind(_rows("carbon_sp3", "key")),
+        sp3_substituent=_rows("carbon_sp3_substituent"),
+        benzene=_by_kind(_rows("carbon_benzene")),
+        heteroaromatic=_rows("carbon_heteroaromatic"),
+        alkene=_by_kind(_rows("carbon_alkene")),
+        alkyne=_by_kind(_rows("carbon_alkyne")),
+        functional=_rows("carbon_functional"),
+        sigma=sigma,
+    )
+
+
+# ---------------------------------------------------------- one molecule ----
+
+
+class _Arithmetic:
+    """Collects the terms of one shift, merging repeats of a name (``α C ×2``)."""
+
+    def __init__(self, base: str, value: float, row: str) -> None:
+        self.base = Term(base, value)
+        self.values: dict[str, float] = {}
+        self.counts: dict[str, int] = defaultdict(int)
+        self.rows = [row]
+
+    def add(self, name: str, value: float | None, row: str) -> None:
+        if value is None:
+            return
+        self.values[name] = self.values.get(name, 0.0) + value
+        self.counts[name] += 1
+        if row not in self.rows:
+            self.rows.append(row)
+
+    def terms(self) -> tuple[Term, ...]:
+        out = [self.base]
+        for name, value in self.values.items():
+            n = self.counts[name]
+            if value:
+                out.append(Term(name if n == 1 else f"{name} ×{n}", round(value, 2)))
+        return tuple(out)
+
+
+class _Molecule:
+    """The heavy-atom graph of a molecule with the lookups the shift rules need."""
+
+    def __init__(self, mol: Chem.Mol) -> None:
+        self.mol = mol
+        atoms = list(mol.GetAtoms())
+        self.heavy = [[n.GetIdx() for n in a.GetNeighbors() if n.GetAtomicNum() > 1] for a in atoms]
+        self.sp3c = [a.GetAtomicNum() == 6 and not a.GetIsAromatic()
+                     and all(b.GetBondType() == Chem.BondType.SINGLE for b in a.GetBonds()) for a in atoms]
+        self.rings = [tuple(r) for r in mol.GetRingInfo().AtomRings()]
+        self._classified: dict[str, dict[tuple[int, int], _Row]] = {}
+
+    @cached_property
+    def aromatic_rings(self) -> list[tuple[int, ...]]:
+        return [r for r in self.rings if all(self.mol.GetAtomWithIdx(a).GetIsAromatic() for a in r)]
+
+    def smallest_ring(self, atoms: tuple[int, ...]) -> int:
+        return min((len(r) for r in self.rings if all(a in r for a in atoms)), default=0)
+
+    def classify(self, name: str, rows: list[_Row]) -> dict[tuple[int, int], _Row]:
+        """(atom 1, atom 2) of the first row matching each bond."""
+        found = self._classified.get(name)
+        if found is None:
+            found = {}
+            for r in rows:
+                if r.query is None:
+                    continue
+                for match in self.mol.GetSubstructMatches(r.query, uniquify=False, maxMatches=_MAX_MATCHES):
+                    found.setdefault((match[0], match[1]), r)
+            self._classified[name] = found
+        return found
+
+    def first_match(self, name: str, rows: list[_Row], atom: int) -> _Row | None:
+        """The first row whose SMARTS matches with ``atom`` as its atom 1."""
+        found = self._classified.get(name)
+        if found is None:
+            found = {}
+            for r in rows:
+                if r.query is None:
+                    continue
+                for match in self.mol.GetSubstructMatches(r.query, uniquify=False, maxMatches=_MAX_MATCHES):
+                    found.setdefault((match[0], -1), r)
+            self._classified[name] = found
+        return found.get((atom, -1))
+
+    def multiple_partner(self, atom: int) -> tuple[str, int | None]:
+        """How the carbon is bonded: ("aromatic"|"functional"|"alkyne"|"alkene"|"sp3", partner)."""
+        a = self.mol.GetAtomWithIdx(atom)
+        if a.GetIsAromatic():
+            return "aromatic", None
+        doubles, triples = [], []
+        for b in a.GetBonds():
+            other = b.GetOtherAtom(a)
+            if b.GetBondType() == Chem.BondType.DOUBLE:
+                doubles.append(other)
+            elif b.GetBondType() == Chem.BondType.TRIPLE:
+                triples.append(other)
+        if any(o.GetAtomicNum() != 6 for o in doubles + triples) or len(doubles) > 1:
+            return "functional", None
+        if triples:
+            return "alkyne", triples[0].GetIdx()
+        if doubles:
+            return "alkene", doubles[0].GetIdx()
+        if a.GetAtomicNum() == 6 and all(b.GetBondType() == Chem.BondType.SINGLE for b in a.GetBonds()):
+            return "sp3", None
+        return "functional", None
+
+
+# ------------------------------------------------------------ the rules ----
+
+
+def _sp3(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
+    t = _tables().sp3
+    base = t["base"][0]
+    arith = _Arithmetic("base", base.num("value"), base.key)
+    position = {int(r.fields["key"]): r for r in t["position"]}
+    dist = {atom: 0}
+    frontier = [atom]
+    for d in range(1, max(position) + 1):
+        reached = []
+        for a in frontier:
+            for n in m.heavy[a]:
+                if n not in dist and m.sp3c[n]:
+                    dist[n] = d
+                    reached.append(n)
+        for _ in reached:
+            arith.add(position[d].label, position[d].num("value"), position[d].key)
+        frontier = reached
+    # steric corrections: sp3 carbon neighbours of the carbon and of each attached sp3 carbon
+    steric = {r.fields["key"]: r for r in t["steric"]}
+
+    def degree(a: int) -> int:
+        return min(4, max(1, sum(1 for n in m.heavy[a] if m.sp3c[n])))
+
+    for n in m.heavy[atom]:
+        if m.sp3c[n]:
+            row = steric.get(f"{degree(atom)}-{degree(n)}")
+            if row is not None:
+                arith.add(row.label, row.num("value"), row.key)
+    # substituents other than sp3 carbon: alpha, beta, gamma by the sp3 carbon carrying them
+    classes = m.classify("sp3_substituent", _tables().sp3_substituent)
+    placed: dict[int, tuple[int, int]] = {}
+    for a, d in dist.items():
+        if d > 2:
+            continue
+        for x in m.heavy[a]:
+            if not m.sp3c[x] and (x not in placed or placed[x][0] > d):
+                placed[x] = (d, a)
+    for x, (d, a) in placed.items():
+        row = classes.get((a, x))
+        if row is None:
+            continue
+        iso = len(m.heavy[a]) - 1 >= 2
+        column = ("alpha", "beta", "gamma")[d]
+        if d < 2:
+            value = row.num(f"{column}_iso") if iso else None
+            value = row.num(f"{column}_n") if value is None else value
+        else:
+            value = row.num("gamma")
+        arith.add(f"{'αβγ'[d]} {row.label}", value, row.key)
+    ring = m.smallest_ring((atom,))
+    if ring >= 3:
+        rows = {int(r.fields["key"]): r for r in t["ring"]}
+        row = rows[min(ring, max(rows))]
+        arith.add(row.label, row.num("value"), row.key)
+    hetero = sum(1 for n in m.heavy[atom] if m.mol.GetAtomWithIdx(n).GetAtomicNum() in _HETERO)
+    if hetero >= 2:
+        for row in t["site"]:
+            if row.query is not None and any(match[0] == atom for match in m.mol.GetSubstructMatches(row.query)):
+                count = hetero - 1 if row.fields["key"] == "gem_hetero" else 1
+                arith.add(row.label, (row.num("value") or 0.0) * count, row.key)
+                break
+    return arith, "sp3"
+
+
+def _chain(m: _Molecule, start: int, exclude: set[int], depth: int) -> list[int]:
+    """Counts of heavy atoms 1..depth bonds beyond ``start`` (not passing through ``exclude``)."""
+    seen = set(exclude) | {start}
+    frontier, counts = [start], []
+    for _ in range(depth):
+        reached = []
+        for a in frontier:
+            for n in m.heavy[a]:
+                if n not in seen:
+                    seen.add(n)
+                    reached.append(n)
+        counts.append(len(reached))
+        frontier = reached
+    return counts
+
+
+def _unsaturated(m: _Molecule, atom: int, partner: int, kind: str) -> tuple[_Arithmetic, str]:
+    """Alkene or alkyne carbon: base + position and substituent increments from both ends."""
+    t = _tables().alkene if kind == "alkene" else _tables().alkyne
+    base = t["base"][0]
+    arith = _Arithmetic("base", base.num("z1"), base.key)
+    alpha, beta, gamma = (next(r for r in t["position"] if r.fields["id"] == k) for k in ("alpha", "beta", "gamma"))
+    classes = m.classify(f"{kind}_substituent", t["substituent"])
+    substituents = {}
+    for side, (here, other) in enumerate(((atom, partner), (partner, atom))):
+        column, prime = ("z1", "") if side == 0 else ("z2", "′")
+        subs = [x for x in m.heavy[here] if x != other]
+        substituents[side] = subs
+        for x in subs:
+            if m.sp3c[x]:
+                arith.add(f"α{prime} C", alpha.num(column), alpha.key)
+                n_beta, n_gamma = _chain(m, x, {atom, partner}, 2)
+                for _ in range(n_beta):
+                    arith.add(f"β{prime}", beta.num(column), beta.key)
+                for _ in range(n_gamma):
+                    arith.add(f"γ{prime}", gamma.num(column), gamma.key)
+            else:
+                row = classes.get((here, x))
+                if row is not None:
+                    arith.add(f"{row.label}{' (on partner)' if side else ''}", row.num(column), row.key)
+    if kind == "alkene":
+        pairs = {r.fields["id"]: r for r in t["pair"]}
+        if len(substituents[0]) == 2:
+            arith.add(pairs["gem"].label, pairs["gem"].num("z1"), pairs["gem"].key)
+        if len(substituents[1]) == 2:
+            arith.add(pairs["gem_partner"].label, pairs["gem_partner"].num("z1"), pairs["gem_partner"].key)
+        ring = m.smallest_ring((atom, partner))
+        if ring >= 4:
+            rows = {int(r.fields["id"].removeprefix("ring")): r for r in t["ring"]}
+            row = rows[min(ring, max(rows))]
+            arith.add(row.label, row.num("z1"), row.key)
+    return arith, kind
+
+
+def _aromatic(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
+    t = _tables().benzene
+    rings = [r for r in m.aromatic_rings if atom in r]
+    six = [r for r in rings if len(r) == 6]
+
+    def heteroatoms(ring: tuple[int, ...]) -> int:
+        return sum(1 for a in ring if m.mol.GetAtomWithIdx(a).GetAtomicNum() != 6)
+
+    if six:
+        home = max(six, key=heteroatoms)
+        base = t["base"][0]
+        arith = _Arithmetic("base", base.num("ipso"), base.key)
+    elif rings:
+        home = min(rings, key=len)
+        row = m.first_match("heteroaromatic", _tables().heteroaromatic, atom)
+        if row is None:
+            base = t["base"][0]
+            arith = _Arithmetic("base", base.num("ipso"), base.key)
+        else:
+            arith = _Arithmetic(f"base {row.label}", row.num("shift"), row.key)
+    else:   # aromatic atom outside the ring perception (should not happen): benzene value
+        base = t["base"][0]
+        return _Arithmetic("base", base.num("ipso"), base.key), "aromatic"
+    family = "heteroaromatic" if heteroatoms(home) else "aromatic"
+    n = len(home)
+    index = home.index(atom)
+    columns = ("ipso", "ortho", "meta", "para")
+    classes = m.classify("benzene_increment", t.get("increment", []))
+    fused = {r.fields["id"]: r for r in t.get("fused", [])}
+    aza = t["aza"][0]
+    for j, a in enumerate(home):
+        d = min(abs(j - index), n - abs(j - index))
+        column = columns[d]
+        if d and len(home) == 6 and _is_pyridine_n(m, a):
+            arith.add(f"{aza.label} {column}", aza.num(column), aza.key)
+        for x in m.heavy[a]:
+            if x in home:
+                continue
+            bond = m.mol.GetBondBetweenAtoms(a, x)
+            if bond.GetIsAromatic():
+                if len(home) != 6:
+                    continue
+                other = [r for r in m.aromatic_rings if a in r and x in r and r != home]
+                size = len(other[0]) if other else 6
+                if size == 6:
+                    row = fused["fused6"]
+                elif m.mol.GetAtomWithIdx(x).GetAtomicNum() != 6:
+                    row = fused["fused5_hetero"]
+                else:
+                    row = fused["fused5_carbon"]
+                arith.add(f"{row.label} {column}", row.num(column), row.key)
+                continue
+            row = classes.get((a, x))
+            if row is not None:
+                arith.add(f"{row.label} {column}", row.num(column), row.key)
+    if len(home) == 6:
+        for row in t.get("site", []):
+            if row.query is not None and any(match[0] == atom for match in m.mol.GetSubstructMatches(row.query)):
+                arith.add(row.label, row.num("ipso"), row.key)
+                break
+    return arith, family
+
+
+def _is_pyridine_n(m: _Molecule, atom: int) -> bool:
+    a = m.mol.GetAtomWithIdx(atom)
+    return a.GetAtomicNum() == 7 and a.GetIsAromatic() and a.GetDegree() == 2 and a.GetTotalNumHs() == 0 \
+        and a.GetFormalCharge() == 0
+
+
+def _functional(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
+    row = m.first_match("functional", _tables().functional, atom)
+    if row is None:
+        row = _tables().functional[-1]
+    return _Arithmetic(f"base {row.label}", row.num("shift"), row.key), row.fields["family"]
+
+
+def _arithmetic(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
+    how, partner = m.multiple_partner(atom)
+    if how == "sp3":
+        return _sp3(m, atom)
+    if how == "aromatic":
+        return _aromatic(m, atom)
+    if how in ("alkene", "alkyne"):
+        return _unsaturated(m, atom, partner, how)
+    return _functional(m, atom)
+
+
+# -------------------------------------------------------------- predictor ----
+
+
+class CarbonPredictor:
+    """Predict the 13C signals of structures.
+
+    Parameters
+    ----------
+    solvent : str
+        A solvent of ``rules/solvents.tsv`` by id or alias; checked, not used for a correction.
+    environment : bool
+        Add the environment correction fitted on real spectra (``rules/carbon_environment.tsv``)
+        as one more named term; default True.
+
+    Raises
+    ------
+    InputError
+        Unknown solvent.
+
+    Examples
+    --------
+    >>> [(s.dept, s.family) for s in CarbonPredictor().predict(Chem.MolFromSmiles("CC#N"))]
+    [('C', 'nitrile'), ('CH3', 'sp3')]
+    """
+
+    def __init__(self, solvent: str = DEFAULT_SOLVENT, environment: bool = True) -> None:
+        self.solvent = solvent
+        self.environment = environment
+        self._solvent = find_solvent(solvent)
+
+    @property
+    def solvent_id(self) -> str:
+        """The solvent's id in ``rules/solvents.tsv``."""
+        return self._solvent.id
+
+    def predict(self, mol: Chem.Mol) -> list[CarbonSignal]:
+        """One signal per symmetry class of carbon, highest shift first (ties by first atom).
+
+        Parameters
+        ----------
+        mol : rdkit.Chem.Mol
+            A sanitised molecule; explicit hydrogens are allowed (atom indices refer to ``mol``).
+        """
+        heavy, index = _heavy(mol)
+        m = _Molecule(heavy)
+        ranks = list(Chem.CanonicalRankAtoms(heavy, breakTies=False))
+        classes: dict[int, list[int]] = defaultdict(list)
+        for a in heavy.GetAtoms():
+            if a.GetAtomicNum() == 6:
+                classes[ranks[a.GetIdx()]].append(a.GetIdx())
+        sigma = _tables().sigma
+        signals = []
+        for atoms in classes.values():
+            first = atoms[0]
+            arith, family = _arithmetic(m, first)
+            terms = arith.terms()
+            rows = list(arith.rows)
+            corrected = False
+            if self.environment:
+                found = find_correction(environment_codes(heavy, first, CARBON_RADIUS), ENVIRONMENT_TABLE)
+                if found is not None:
+                    corrected = True
+                    value = round(found.mean, 2)
+                    if value:
+                        terms = (*terms, Term(f"environment correction ({found.compounds} compounds, "
+                                              f"sd {found.sd:.1f})", value))
+                        rows.append(f"{ENVIRONMENT_TABLE}:{found.code}")
+            shift = round(sum(t.value for t in terms), 2)
+            spread = sigma.get(family, (5.0, 5.0))[1 if corrected else 0]
+            n_h = heavy.GetAtomWithIdx(first).GetTotalNumHs()
+            signals.append(CarbonSignal(shift=shift, n_h=n_h, atoms=tuple(index[a] for a in atoms), sigma=spread,
+                                        terms=terms, family=family, rows=tuple(rows)))
+        signals.sort(key=lambda s: (-s.shift, s.atoms[0]))
+        return signals
+
+
+def _heavy(mol: Chem.Mol) -> tuple[Chem.Mol, list[int]]:
+    """The molecule without explicit H atoms, and each remaining atom's index in ``mol``."""
+    kept = [a.GetIdx() for a in mol.GetAtoms() if a.GetAtomicNum() != 1]
+    if len(kept) == mol.GetNumAtoms():
+        return mol, kept
+    heavy = Chem.RemoveHs(mol)
+    if heavy.GetNumAtoms() != len(kept):
+        heavy = Chem.RemoveHs(mol, implicitOnly=False, updateExplicitCount=True, sanitize=True)
+    if heavy.GetNumAtoms() != len(kept):
+        raise InputError("could not set aside the explicit hydrogens of the structure")
+    return heavy, kept
+
+
+def predict_carbon_smiles(smiles: str, solvent: str = DEFAULT_SOLVENT, environment: bool = True) -> list[CarbonSignal]:
+    """The predicted 13C signals of a SMILES; InputError on invalid SMILES or unknown solvent."""
+    from .proton import parse_smiles
+
+    return CarbonPredictor(solvent, environment=environment).predict(parse_smiles(smiles))
