@@ -27,6 +27,7 @@
 
 #define MAXN 40
 #define MAXT 64
+#define MAXG 8                          /* groups of types with a bound on vertices carrying a double bond */
 
 /* Bond bans: bit BAN(o) of forbid[a][b] set means bond order o may not join a vertex of
  * type a to one of type b.  Python names these bits once, as rank.generate.core.BondBan,
@@ -40,6 +41,9 @@ typedef struct {
     int n, ntypes, maxorder;
     int tval[MAXT], tdeg[MAXT], tleft[MAXT];
     int tneed_double[MAXT];             /* 1: the atom must carry a double bond */
+    int ngroups;                        /* bounds on how many vertices of a group carry a double bond */
+    unsigned tgroups[MAXT];             /* bit g set: a vertex of the type counts for group g */
+    int glo[MAXG], ghi[MAXG];           /* at least glo, at most ghi (-1: no upper bound) */
     unsigned char forbid[MAXT][MAXT];   /* BAN(o) set: bond order o not allowed */
     /* search state */
     int k;                      /* level being filled (vertex index) */
@@ -162,6 +166,28 @@ static void unplace(Enumerator *e, int k)
     e->resid_sum -= e->tdeg[t] - 2 * e->colsum[k];
 }
 
+/* Group bounds on vertices that carry a double bond: a placed vertex keeps its double
+ * bonds, so the count of those that have one only grows (upper bound); a placed vertex
+ * without one can still get one only with 2 free valences, an unplaced one only with a
+ * degree of 2 or more (lower bound).  At a complete structure the count is exact. */
+static int double_groups_feasible(const Enumerator *e, int k)
+{
+    for (int g = 0; g < e->ngroups; g++) {
+        unsigned bit = 1u << g;
+        int have = 0, can = 0;
+        for (int i = 0; i <= k; i++) {
+            if (!(e->tgroups[e->type[i]] & bit)) continue;
+            if (e->doubles[i]) have++;
+            else if (e->resid[i] >= 2) can++;
+        }
+        if (e->ghi[g] >= 0 && have > e->ghi[g]) return 0;
+        for (int t = 0; t < e->ntypes; t++)
+            if ((e->tgroups[t] & bit) && e->tdeg[t] >= 2) can += e->tleft[t];
+        if (have + can < e->glo[g]) return 0;
+    }
+    return 1;
+}
+
 /* Necessary conditions on a prefix, cheaper than the full canonicity test.
  * In a maximal code, column k is the largest column any remaining vertex could
  * show at position k, so (1) column k, read over rows 0..k-2 and then its
@@ -191,6 +217,7 @@ static int feasible(const Enumerator *e, int k)
     }
     for (int i = 0; i <= k; i++)
         if (e->tneed_double[e->type[i]] && !e->doubles[i] && e->resid[i] < 2) return 0;
+    if (e->ngroups && !double_groups_feasible(e, k)) return 0;
     if (left == 0) return R == 0;
     if (R < 1 || R > D || ((D - R) & 1)) return 0;
     if (e->placed_deg + e->resid_sum > 0 &&
@@ -304,12 +331,12 @@ static int Enumerator_init(Enumerator *e, PyObject *args, PyObject *kw)
 {
     PyObject *vals, *degs, *counts;
     Py_buffer forbid;
-    PyObject *need = NULL;
+    PyObject *need = NULL, *groups = NULL;
     int maxorder = 3, split_level = 3, part = 0, parts = 1;
     static char *names[] = {"values", "degrees", "counts", "forbid", "maxorder",
-                            "split_level", "part", "parts", "needs_double", NULL};
-    if (!PyArg_ParseTupleAndKeywords(args, kw, "OOOy*|iiiiO", names, &vals, &degs, &counts,
-                                     &forbid, &maxorder, &split_level, &part, &parts, &need))
+                            "split_level", "part", "parts", "needs_double", "double_groups", NULL};
+    if (!PyArg_ParseTupleAndKeywords(args, kw, "OOOy*|iiiiOO", names, &vals, &degs, &counts,
+                                     &forbid, &maxorder, &split_level, &part, &parts, &need, &groups))
         return -1;
     if (parts < 1 || part < 0 || part >= parts || split_level < 0) {
         PyErr_SetString(PyExc_ValueError, "need 0 <= part < parts and split_level >= 0");
@@ -346,6 +373,36 @@ static int Enumerator_init(Enumerator *e, PyObject *args, PyObject *kw)
             e->forbid[i][j] = ((unsigned char *)forbid.buf)[i * T + j];
     PyBuffer_Release(&forbid);
     if (PyErr_Occurred()) return -1;
+    /* double_groups: [(members, low, high), ...], members a sequence of type indices, high -1: none */
+    if (groups && groups != Py_None) {
+        Py_ssize_t G = PySequence_Size(groups);
+        if (G < 0 || G > MAXG) {
+            PyErr_SetString(PyExc_ValueError, "at most 8 double-bond groups");
+            return -1;
+        }
+        for (Py_ssize_t g = 0; g < G; g++) {
+            PyObject *item = PySequence_GetItem(groups, g);
+            PyObject *members = NULL;
+            int lo = 0, hi = -1;
+            if (!item || !PyArg_ParseTuple(item, "Oii", &members, &lo, &hi)) { Py_XDECREF(item); return -1; }
+            Py_ssize_t M = PySequence_Size(members);
+            for (Py_ssize_t m = 0; m < M; m++) {
+                PyObject *x = PySequence_GetItem(members, m);
+                long t = x ? PyLong_AsLong(x) : -1;
+                Py_XDECREF(x);
+                if (t < 0 || t >= T) {
+                    Py_DECREF(item);
+                    if (!PyErr_Occurred()) PyErr_SetString(PyExc_ValueError, "group member out of range");
+                    return -1;
+                }
+                e->tgroups[t] |= 1u << g;
+            }
+            Py_DECREF(item);
+            e->glo[g] = lo;
+            e->ghi[g] = hi;
+        }
+        e->ngroups = (int)G;
+    }
     if (n < 1 || n > MAXN) {
         PyErr_SetString(PyExc_ValueError, "vertex count out of range");
         return -1;

@@ -27,6 +27,7 @@ from rdkit import Chem
 
 from ..standardize import quiet_rdkit
 from ..tables import read_table
+from .constraints import Limit
 from .core import VertexType
 from .fragment import FragmentType, is_canonical_placement
 from .hints import Hint
@@ -88,6 +89,8 @@ class Why(Enum):
     """Misses a ``--require`` or matches a ``--forbid`` (``IsomerStream.rejected``)."""
     HINT = "hint"
     """Misses a hint's SMARTS (``IsomerStream.hinted``)."""
+    LIMIT = "limit"
+    """Breaks a limit on atom counts (``IsomerStream.hinted``, under the limit's name)."""
     FILTER = "filter"
     """Matches a plausibility filter (``IsomerStream.removed``)."""
 
@@ -114,16 +117,21 @@ class Acceptor:
         The user's patterns as given and compiled: every structure must match / must not match.
     hints : sequence of Hint, default ()
         Those with ``smarts`` must match every structure.
+    limits : sequence of Limit, default ()
+        Every structure must satisfy them (``Limit.holds``).
     """
 
     def __init__(self, complete: bool, require: Sequence[tuple[str, Chem.Mol]] = (),
-                 forbid: Sequence[tuple[str, Chem.Mol]] = (), hints: Sequence[Hint] = ()) -> None:
+                 forbid: Sequence[tuple[str, Chem.Mol]] = (), hints: Sequence[Hint] = (),
+                 limits: Sequence[Limit] = ()) -> None:
         self.complete = complete
         self._require = [(Rejection(Why.PATTERN, f"--require {text!r}"), p) for text, p in require]
         self._forbid = [(Rejection(Why.PATTERN, f"--forbid {text!r}"), p) for text, p in forbid]
         self._hints = [(Rejection(Why.HINT, h.name), h.pattern()) for h in hints if h.smarts]
+        self.limits = tuple(limits)
 
-    def __call__(self, kinds: Sequence[VertexType], record: bytes) -> Isomer | Rejection:
+    def __call__(self, kinds: Sequence[VertexType], record: bytes,
+                 limits: Sequence[Limit] | None = None) -> Isomer | Rejection:
         """The structure of one record, or why it is left out.
 
         Parameters
@@ -132,6 +140,9 @@ class Acceptor:
             The run's types, indexed by the record's type bytes.
         record : bytes
             One record of ``Enumerator.next_batch``.
+        limits : sequence of Limit, optional
+            The limits to check (default: all of the acceptor's); the stream leaves out
+            those the run's types already settle.
 
         Returns
         -------
@@ -143,9 +154,9 @@ class Acceptor:
         RDKit refuses, which is a reason (:attr:`Why.INVALID`), not news.
         """
         with quiet_rdkit():
-            return self._judge(kinds, record)
+            return self._judge(kinds, record, self.limits if limits is None else limits)
 
-    def _judge(self, kinds: Sequence[VertexType], record: bytes) -> Isomer | Rejection:
+    def _judge(self, kinds: Sequence[VertexType], record: bytes, limits: Sequence[Limit]) -> Isomer | Rejection:
         """The decision of :meth:`__call__`, with RDKit's log already quiet."""
         mol, copies = _assemble(kinds, record, expand=True)
         if mol is None:
@@ -173,6 +184,9 @@ class Acceptor:
         for rejection, pattern in self._hints:
             if not mol.HasSubstructMatch(pattern):
                 return rejection
+        for limit in limits:
+            if not limit.holds(mol):
+                return Rejection(Why.LIMIT, limit.name)
         if not self.complete:
             for f in plausibility_filters():
                 if mol.HasSubstructMatch(f.pattern):

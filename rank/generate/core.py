@@ -54,6 +54,10 @@ _SINGLE_ONLY = int(BondBan.DOUBLE | BondBan.TRIPLE)
 """A contracted group's ports are single bonds."""
 
 
+MAX_DOUBLE_GROUPS = 8
+"""Bounds on vertices carrying a double bond the core checks on partial structures (``MAXG`` in ``_enum.c``)."""
+
+
 class EnumeratorFactory:
     """Builds the compiled core's enumerator for one run.
 
@@ -62,14 +66,55 @@ class EnumeratorFactory:
     forbid : iterable of Chem.Mol, default ()
         Compiled ``--forbid`` patterns; a two-atom triple-bond pattern (``[#6]#[#7]``)
         bans that bond wherever the atom types decide it, the others are ignored here.
+    double_limits : iterable of Limit, default ()
+        Limits on carbons with (or without) a double bond whose kind the atom types and
+        flags decide (``Kind.double_bond`` set, no SMARTS, triple bond or environments):
+        the core cuts a partial structure that can no longer meet one (the first
+        :data:`MAX_DOUBLE_GROUPS`; the stream checks every limit on built structures anyway).
 
     Notes
     -----
     Past 80 lines with its docstrings only; the code is under 40.
     """
 
-    def __init__(self, forbid: Iterable[Chem.Mol] = ()) -> None:
+    def __init__(self, forbid: Iterable[Chem.Mol] = (), double_limits: Iterable = ()) -> None:
         self._triple_bans = tuple(p for p in forbid if is_triple_bond_pattern(p))
+        self.double_limits = tuple(double_limits)[:MAX_DOUBLE_GROUPS]
+
+    def double_groups(self, types: TypeCounts) -> list[tuple[list[int], int, int]]:
+        """The core's double-bond groups for a run: (type indices, at least, at most or -1).
+
+        A group's members are the run's atom types of the limit's element and H counts that
+        may carry a double bond; a contracted group's atoms are fixed (its ports are single
+        bonds) and move the bounds.  A limit on atoms without a double bond becomes one on
+        those with: of N such atoms, at most ``upper`` without means at least N - upper with.
+        """
+        groups = []
+        for limit in self.double_limits:
+            kind = limit.kind
+            members, fixed, total = [], 0, 0
+            for i, (t, c) in enumerate(types):
+                if isinstance(t, FragmentType):
+                    fixed += c * t.fragment.carbons_of(kind.element, kind.hydrogens, True)
+                    total += c * t.fragment.carbons_of(kind.element, kind.hydrogens, None)
+                    continue
+                if t.state.element != kind.element:
+                    continue
+                if kind.hydrogens is not None and t.hydrogens not in kind.hydrogens:
+                    continue
+                total += c
+                if t.double_bond is not False and t.degree >= 2:
+                    members.append(i)
+            if kind.double_bond:
+                low, high = limit.lower, limit.upper
+            else:
+                low = 0 if limit.upper is None else total - limit.upper
+                high = total - limit.lower
+            low, high = max(0, low - fixed), None if high is None else high - fixed
+            if high is not None and high < 0:
+                high, low = 0, 1   # no structure: a group no vertex can fill
+            groups.append((members, low, -1 if high is None else high))
+        return groups
 
     def bans(self, types: TypeCounts) -> bytes:
         """The banned bond orders between every pair of the run's types.
@@ -126,6 +171,7 @@ class EnumeratorFactory:
             part=part,
             parts=parts,
             needs_double=[isinstance(t, AtomType) and bool(t.double_bond) for t, _ in types],
+            double_groups=self.double_groups(types) if self.double_limits else None,
         )
 
     def estimate(self, types: TypeCounts, probes: int = PLAN_PROBES, seed: int = 1) -> float:

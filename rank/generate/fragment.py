@@ -94,6 +94,27 @@ class Fragment:
             and (not double_bond or any(b.GetBondType() == Chem.BondType.DOUBLE for b in a.GetBonds()))
         )
 
+    def carbons_of(self, element: str, hydrogens: tuple[int, ...] | None, double_bond: bool | None) -> int:
+        """Atoms of the group of an element, with one of the H counts (None: any) and with or
+        without a double bond in its Kekule form (None: either).
+
+        Parameters
+        ----------
+        element : str
+        hydrogens : tuple of int or None
+        double_bond : bool or None
+
+        Returns
+        -------
+        int
+        """
+        return sum(
+            1 for a in _parse(self.smiles).kekule.GetAtoms()
+            if a.GetSymbol() == element and (hydrogens is None or a.GetTotalNumHs() in hydrogens)
+            and (double_bond is None
+                 or double_bond == any(b.GetBondType() == Chem.BondType.DOUBLE for b in a.GetBonds()))
+        )
+
     def add_to(self, rw: Chem.RWMol) -> tuple[frozenset[int], list[int]]:
         """Add the group's atoms and bonds to ``rw``.
 

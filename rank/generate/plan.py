@@ -24,6 +24,7 @@ from rdkit import Chem
 
 from ..formula import Formula
 from .atoms import AtomState, AtomType, atom_states
+from .constraints import Limit
 from .core import EnumeratorFactory, TypeCounts
 from .fragment import Fragment, FragmentType
 from .hints import Hint
@@ -45,6 +46,10 @@ class Distribution(NamedTuple):
     """The hint that no structure of it can satisfy."""
     split: Hint | None = None
     """The double-bond hint that split it into ``runs``."""
+    limited: Limit | None = None
+    """The limit that no structure of it can satisfy."""
+    narrowed: tuple[tuple[str, TypeCounts, TypeCounts | None], ...] = ()
+    """Each step by which a limit narrowed a run: (limit name, the run before, after; None: dropped)."""
 
 
 class RunPlanner:
@@ -66,6 +71,15 @@ class RunPlanner:
         The user's patterns as given and compiled; one-atom ones prune distributions.
     factory : EnumeratorFactory, optional
         Gives the estimates behind what a hint removes.
+    limits : sequence of Limit, default ()
+        A limit refuses distributions that cannot satisfy it (``Limit.allows``); one on
+        carbons with (or without) a double bond also fixes the carbon types' double-bond
+        flag where the bound leaves no choice, and drops runs that cannot reach it.
+    levels : sequence of (str, EnumeratorFactory), default ()
+        The core's own applications of limits, one at a time: each factory adds one (a
+        triple-bond ban, a bound on carbons with a double bond checked on partial
+        structures) to the one before, starting from ``factory``; what each removes is
+        tallied under its limit's name.
 
     Notes
     -----
@@ -74,7 +88,8 @@ class RunPlanner:
 
     def __init__(self, formula: Formula, complete: bool, hints: Sequence[Hint] = (),
                  require: Sequence[tuple[str, Chem.Mol]] = (), forbid: Sequence[tuple[str, Chem.Mol]] = (),
-                 factory: EnumeratorFactory | None = None) -> None:
+                 factory: EnumeratorFactory | None = None, limits: Sequence[Limit] = (),
+                 levels: Sequence[tuple[str, EnumeratorFactory]] = ()) -> None:
         self.formula = formula
         self.complete = complete
         self.hints = tuple(hints)
@@ -83,6 +98,9 @@ class RunPlanner:
         self.factory = factory or EnumeratorFactory()
         self._groups = [h for h in self.hints if h.fragments]
         self._claims = [h for h in self.hints if h.double_bond and h.hydrogens is not None]
+        self.limits = tuple(limits)
+        self._flagging = [lim for lim in self.limits if lim.kind.on_double_bonds]
+        self.levels = tuple(levels)
 
     def distributions(self, groups: int | None = None) -> Iterator[Distribution]:
         """The hydrogen distributions in the order the core searches them.
@@ -142,6 +160,33 @@ class RunPlanner:
             return d.split.name, max(0, round(whole - left))
         return None
 
+    def limit_removals(self, d: Distribution) -> Counter:
+        """The structures of one distribution each limit removed (estimated), by limit name.
+
+        Parameters
+        ----------
+        d : Distribution
+
+        Returns
+        -------
+        Counter
+            Limit name -> structures; empty when no limit removed any.
+        """
+        removed: Counter = Counter()
+        if d.limited is not None:
+            removed[d.limited.name] += round(self.factory.estimate(d.types))
+            return removed
+        for name, before, after in d.narrowed:
+            left = 0.0 if after is None else self.factory.estimate(after)
+            removed[name] += max(0, round(self.factory.estimate(before) - left))
+        for run in d.runs if self.levels else ():
+            before = self.factory.estimate(run)
+            for name, factory in self.levels:
+                after = factory.estimate(run)
+                removed[name] += max(0, round(before - after))
+                before = after
+        return +removed
+
     @cached_property
     def group_removals(self) -> Counter:
         """Estimated structures each group hint removes, taking the group hints one by one.
@@ -165,11 +210,59 @@ class RunPlanner:
         refused = next((h for h in self.hints if not h.allows(types)), None)
         if refused is not None:
             return Distribution(types, (), refused=refused)
-        if not self._claims:
-            return Distribution(types, (types,))
-        claim = max(self._claims, key=lambda h: h.min_atoms)
-        runs = _split_by_double_bonds(types, claim)
-        return Distribution(types, (types,)) if runs is None else Distribution(types, runs, split=claim)
+        limited = next((lim for lim in self.limits if not lim.allows(types)), None)
+        if limited is not None:
+            return Distribution(types, (), limited=limited)
+        claim, runs = None, None
+        if self._claims:
+            claim = max(self._claims, key=lambda h: h.min_atoms)
+            runs = _split_by_double_bonds(types, claim)
+        if runs is None:
+            claim, runs = None, (types,)
+        if not self._flagging:
+            return Distribution(types, runs, split=claim)
+        narrowed: list[tuple[str, TypeCounts, TypeCounts | None]] = []
+        kept = []
+        for run in runs:
+            for lim in self._flagging:
+                after = _narrow(run, lim)
+                if after is not run:
+                    narrowed.append((lim.name, run, after))
+                if after is None:
+                    break
+                run = after
+            else:
+                kept.append(run)
+        return Distribution(types, tuple(kept), split=claim, narrowed=tuple(narrowed))
+
+
+def _narrow(run: TypeCounts, limit: Limit) -> TypeCounts | None:
+    """The run with the double-bond flags the limit leaves no choice about; None when it cannot be satisfied.
+
+    Returns ``run`` itself when nothing changes.  The carbon types of the limit's H counts with
+    either flag and room for a double bond (degree 2 or more) all take one flag: none when the
+    carbons already decided reach the upper bound, one when every such carbon is needed for the
+    lower bound.  The structures of the run that satisfy the limit are exactly those of the result.
+    """
+    kind = limit.kind
+    low, high = kind.type_range(run)
+    if high < limit.lower or (limit.upper is not None and low > limit.upper):
+        return None
+    free = [t for t, _ in run if isinstance(t, AtomType) and t.double_bond is None and t.degree >= 2
+            and t.state.element == kind.element and (kind.hydrogens is None or t.hydrogens in kind.hydrogens)]
+    if not free:
+        return run
+    counted_if_double = kind.double_bond
+    if limit.upper is not None and low == limit.upper:
+        flag = not counted_if_double   # the free carbons may not be counted
+    elif high == limit.lower:
+        flag = counted_if_double       # every free carbon must be counted
+    else:
+        return run
+    merged: Counter = Counter()
+    for t, c in run:
+        merged[AtomType(t.state, t.hydrogens, flag) if t in free else t] += c
+    return sorted(merged.items(), key=lambda tc: tc[0].key, reverse=True)
 
 
 def _pruned_by(types: TypeCounts, require: Sequence[tuple[str, Chem.Mol]],

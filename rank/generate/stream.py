@@ -24,10 +24,13 @@ from collections import Counter
 from collections.abc import Iterable, Iterator
 from typing import NamedTuple, cast
 
+from rdkit import Chem
+
 from ..errors import InputError
 from ..formula import Formula, parse_formula
 from .accept import Acceptor, Isomer, Rejection, Why
-from .core import CEILING_PROBES, PLAN_PROBES, EnumeratorFactory, TypeCounts
+from .constraints import Limit
+from .core import CEILING_PROBES, MAX_DOUBLE_GROUPS, PLAN_PROBES, EnumeratorFactory, TypeCounts
 from .hints import Hint
 from .plan import Distribution, RunPlanner
 from .smarts import compile_smarts
@@ -110,7 +113,7 @@ class Plan(NamedTuple):
     runs: list[TypeCounts]
     """The runs of the compiled core, in order."""
     hinted: Counter
-    """Hint name -> estimated structures its planning removed (groups, distributions, splits)."""
+    """Hint or limit name -> estimated structures its planning removed (groups, distributions, splits)."""
     pruned: Counter
     """Option (``"--require '[NH2]'"``) -> hydrogen distributions it ruled out."""
 
@@ -138,6 +141,11 @@ class IsomerStream:
         one is skipped, a structure that misses a hint's SMARTS is dropped, and
         both are counted in ``hinted`` (hint name -> structures, estimated for
         skipped distributions).
+    limits : iterable of Limit, default ()
+        Bounds on atom counts (``rank.generate.constraints``, e.g. from a 13C list): a
+        distribution that cannot satisfy one is skipped, double-bond flags and triple-bond
+        bans narrow the runs where a bound leaves no choice, and each built structure is
+        checked; what each removed is counted in ``hinted`` under its name, like a hint.
 
     Raises
     ------
@@ -171,6 +179,7 @@ class IsomerStream:
         ceiling: int = DEFAULT_CEILING,
         budget: float | None = None,
         hints: Iterable[Hint] = (),
+        limits: Iterable[Limit] = (),
     ) -> None:
         self.formula = formula if isinstance(formula, Formula) else parse_formula(formula)
         if self.formula.heavy_atoms > MAX_HEAVY_ATOMS:
@@ -187,10 +196,24 @@ class IsomerStream:
         self.ceiling = ceiling
         self.budget = budget
         self.hints = tuple(hints)
-        self._factory = EnumeratorFactory(p for _, p in forbid_patterns)
+        self.limits = tuple(limits)
+        triple_ban = next((lim for lim in self.limits if lim.upper == 0 and lim.kind.triple_bond
+                           and lim.kind.hydrogens is None and not lim.kind.environments), None)
+        forbid_core = [p for _, p in forbid_patterns]
+        plain = EnumeratorFactory(forbid_core)
+        levels = []
+        if triple_ban is not None:
+            # the limit's kind leaves out the beta carbon of C#C-O, C#C-N, C#C-S: C#C is banned only without them
+            banned = ["[#6]#[#7]"] + (["[#6]#[#6]"] if not any(self.formula[e] for e in "NOS") else [])
+            forbid_core += [Chem.MolFromSmarts(s) for s in banned]
+            levels.append((triple_ban.name, EnumeratorFactory(forbid_core)))
+        double_limits = [lim for lim in self.limits if lim.kind.on_double_bonds][:MAX_DOUBLE_GROUPS]
+        for k, lim in enumerate(double_limits, 1):
+            levels.append((lim.name, EnumeratorFactory(forbid_core, double_limits[:k])))
+        self._factory = levels[-1][1] if levels else plain
         self._planner = RunPlanner(self.formula, complete, self.hints, require_patterns, forbid_patterns,
-                                   self._factory)
-        self._acceptor = Acceptor(complete, require_patterns, forbid_patterns, self.hints)
+                                   plain, self.limits, levels)
+        self._acceptor = Acceptor(complete, require_patterns, forbid_patterns, self.hints, self.limits)
         self.hinted: Counter = Counter()
         self.explored = 0
         self.removed: Counter = Counter()
@@ -292,7 +315,7 @@ class IsomerStream:
         int
             Up to the budget, if one was given (``complete_run`` says whether all).
         """
-        unbuilt = self.complete and not (self.require or self.forbid or self.hints)
+        unbuilt = self.complete and not (self.require or self.forbid or self.hints or self.limits)
         return sum(item if isinstance(item, int) else 1 for item in self._walk(unbuilt))
 
     def _walk(self, unbuilt: bool) -> Iterator[Isomer | int]:
@@ -317,6 +340,7 @@ class IsomerStream:
         core = self._factory.build(types, part, parts)
         kinds = [t for t, _ in types]
         accept = self._acceptor
+        checks = tuple(lim for lim in self.limits if not lim.settled(types))
         while deadline is None or time.time() <= deadline:
             skipped, records = core.next_batch(_BATCH, unbuilt)
             if not records and not skipped:
@@ -326,7 +350,7 @@ class IsomerStream:
                 yield skipped
             for record in records:
                 self.explored += 1
-                verdict = accept(kinds, record)
+                verdict = accept(kinds, record, checks)
                 if type(verdict) is Isomer:
                     yield verdict
                 else:
@@ -338,6 +362,8 @@ class IsomerStream:
         removal = self._planner.hint_removal(d)
         if removal is not None:
             hinted[removal[0]] += removal[1]
+        if self.limits:
+            hinted.update(self._planner.limit_removals(d))
 
     def _count_rejection(self, rejection: Rejection) -> None:
         why = rejection.why
@@ -345,7 +371,7 @@ class IsomerStream:
             self.removed[rejection.key] += 1
         elif why is Why.PATTERN:
             self.rejected[rejection.key] += 1
-        elif why is Why.HINT:
+        elif why is Why.HINT or why is Why.LIMIT:
             self.hinted[rejection.key] += 1
 
 
