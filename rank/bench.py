@@ -168,8 +168,7 @@ def run_case(case: Case, library: dict[str, list[str]] | None = None, with_carbo
     suspects = None if library is None else library.get(case.formula, [case.smiles])
     carbon = case.carbon if with_carbon and case.carbon else None
     try:
-        extra = {} if carbon is None else {"carbon": carbon}
-        result = Identifier(track=case.smiles, **options).identify(case.formula, case.peaks, suspects, **extra)
+        result = Identifier(track=case.smiles, **options).identify(case.formula, case.peaks, suspects, carbon)
     except InputError as exc:
         return Outcome(case, None, 0, time.perf_counter() - start, None, None, None, (), str(exc))
     seconds = time.perf_counter() - start

@@ -181,6 +181,8 @@ def _add_bench(sub) -> None:
                      help="rank each compound among the structures of its formula in this grouped file "
                           "(formula<TAB>smiles|smiles|...) instead of generating isomers")
     ben.add_argument("--carbons", metavar="LOW-HIGH", help="only compounds with this many carbons, e.g. 2-8")
+    ben.add_argument("--with-carbon", action="store_true",
+                     help="score the file's 13C lists too (the open data's c13 column, a carbon column)")
     ben.add_argument("--sample", type=_positive_int, metavar="N",
                      help="only the first N cases in a fixed order (by a hash of the id)")
     ben.set_defaults(run=_run_bench)
@@ -199,7 +201,8 @@ def _run_bench(args: argparse.Namespace) -> int:
     outcomes = []
     print(f"{'id':<14} {'rank':>5} {'scored':>8} {'seconds':>8}  name")
     for case in cases:
-        o = run_case(case, library=library, use_hints=not args.no_hints, workers=workers, budget=args.budget,
+        o = run_case(case, library=library, with_carbon=args.with_carbon, use_hints=not args.no_hints,
+                     workers=workers, budget=args.budget,
                      ceiling=DEFAULT_CEILING if args.ceiling is None else args.ceiling)
         outcomes.append(o)
         rank = "-" if o.rank is None else str(o.rank)
@@ -227,11 +230,14 @@ def _run_bench(args: argparse.Namespace) -> int:
 
 
 def _add_identify(sub) -> None:
-    ide = sub.add_parser("identify", help="rank the isomers of a formula against a 1H peak list")
+    ide = sub.add_parser("identify", help="rank the isomers of a formula against a 1H peak list (and a 13C list)")
     ide.add_argument("--formula", required=True, help="molecular formula of the unknown, e.g. C9H10O2")
     ide.add_argument("--peaks", required=True, metavar="PEAKS",
                      help="a peak file (.csv, .tsv, .json, .jdx) or an inline list such as "
                           "'7.35-7.20 (m, 5H), 4.12 (q, J = 7.1 Hz, 2H), 2.05 (s, 3H)'")
+    ide.add_argument("--carbon", metavar="PEAKS",
+                     help="the 13C list, a file or inline, with DEPT types when known, e.g. "
+                          "'170.9 (C), 60.4 (CH2), 21.0 (CH3), 14.2 (CH3)'")
     ide.add_argument("--solvent", metavar="NAME", help="NMR solvent (default: the peak list's, else CDCl3)")
     ide.add_argument("--field", type=float, metavar="MHZ",
                      help="spectrometer frequency (default: the peak list's, else 400)")
@@ -273,7 +279,12 @@ def _run_identify(args: argparse.Namespace) -> int:
     identifier.check_options()
     outputs = _check_outputs(args, {"--json": ("json", "shortlist.json"), "--csv": ("csv", "shortlist.csv"),
                                     "--report": ("report", "report.html")})
-    result = identifier.identify(args.formula, args.peaks, args.candidates)
+    carbon = None
+    if args.carbon is not None:
+        from .spectra import read_carbon_peaks
+
+        carbon = read_carbon_peaks(args.carbon)
+    result = identifier.identify(args.formula, args.peaks, args.candidates, carbon)
 
     def render(option: str) -> str:
         if option == "--json":

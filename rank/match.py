@@ -473,6 +473,10 @@ class CarbonSettings:
     empty_line: float = 4.0
     """Cost of an observed line that holds no class (as a 2 σ miss): more lines than the candidate's
     distinct carbons means its symmetry is wrong (solvent lines are dropped before matching)."""
+    weight: float = 1.0
+    """Factor on the 13C misfit where it joins the 1H misfit of a candidate (``rank.shortlist.score``):
+    both are means of squared residuals per class or proton, so 1 weighs one carbon class like one
+    proton."""
 
 
 DEFAULT_CARBON_SETTINGS = CarbonSettings()

@@ -32,20 +32,33 @@ from rdkit.Chem import rdMolDescriptors
 from .errors import InputError
 from .formula import Formula, parse_formula
 from .generate import DEFAULT_CEILING, Hint, IsomerStream, SpaceTooLarge, compile_smarts, read_hints
-from .match import DEFAULT_SETTINGS, Match, Settings, match
-from .predict import Predictor, Signal
+from .match import (
+    DEFAULT_CARBON_SETTINGS,
+    DEFAULT_SETTINGS,
+    CarbonMatch,
+    CarbonSettings,
+    Match,
+    Settings,
+    match,
+    match_carbons,
+)
+from .predict import CarbonPredictor, CarbonSignal, Predictor, Signal
 from .spectra import (
     DEFAULT_FIELD_MHZ,
     DEFAULT_SOLVENT,
+    CarbonPeak,
+    CarbonSpectrum,
     Dropped,
     Normalisation,
     Peak,
     Spectrum,
+    drop_carbon_solvent_signals,
     drop_labelled_peaks,
     drop_solvent_signals,
     exchangeable_bound,
     find_solvent,
     normalise,
+    read_carbon_peaks,
     read_peaks,
 )
 from .standardize import Unsupported, quiet_rdkit, standardize, supported_text
@@ -75,17 +88,33 @@ class Observation:
     solvent: str
     field_mhz: float
     exchange_absent: bool
+    carbons: tuple[CarbonPeak, ...] = ()
+    """The observed 13C lines, solvent dropped; empty when no 13C list was given."""
 
 
 @dataclass(frozen=True)
 class Scored:
-    """One candidate's prediction and its best match over the normalisations."""
+    """One candidate's prediction and its best match over the normalisations; with a 13C list, its
+    13C prediction and match, whose weighted misfit is part of ``misfit``."""
 
     smiles: str
     misfit: float
     match: Match
     normalisation: Normalisation
     signals: tuple[Signal, ...]
+    carbon: CarbonMatch | None = None
+    carbon_signals: tuple[CarbonSignal, ...] = ()
+    carbon_weight: float = 0.0
+
+    @property
+    def proton_misfit(self) -> float:
+        """The 1H part of the misfit (with the integral rounding)."""
+        return round(self.match.misfit + self.normalisation.error, 6)
+
+    @property
+    def carbon_misfit(self) -> float:
+        """The weighted 13C part of the misfit; 0 without a 13C list."""
+        return 0.0 if self.carbon is None else round(self.carbon_weight * self.carbon.misfit, 6)
 
 
 @dataclass(frozen=True)
@@ -154,7 +183,8 @@ class Shortlist:
         return sum(1 for m in self.misfits if m <= self.tracked_misfit)
 
     def to_frame(self):
-        """The candidates as a pandas DataFrame, one row each, misfit parts as columns."""
+        """The candidates as a pandas DataFrame, one row each, misfit parts as columns (``carbon``: the
+        weighted 13C misfit, empty without a 13C list)."""
         import pandas as pd
 
         rows = []
@@ -164,7 +194,9 @@ class Shortlist:
                 "rank": c.rank, "smiles": c.smiles, "inchikey": c.inchikey, "misfit": c.misfit,
                 "confidence": c.confidence, "tied": c.tied,
                 "shift": parts.shift, "integral": parts.integral, "multiplicity": parts.multiplicity,
-                "coupling": parts.coupling, "count": parts.count, "reason": c.reason,
+                "coupling": parts.coupling, "count": parts.count,
+                "carbon": c.scored.carbon_misfit if c.scored.carbon is not None else None,
+                "reason": c.reason,
             })
         return pd.DataFrame(rows)
 
@@ -172,14 +204,17 @@ class Shortlist:
 # --------------------------------------------------------------- observe ----
 
 
-def observe(formula: Formula, spectrum: Spectrum, solvent: str | None = None,
-            field_mhz: float | None = None, keep_all_peaks: bool = False) -> tuple[Observation, tuple[Dropped, ...]]:
-    """Drop solvent signals and find the plausible integral normalisations.
+def observe(formula: Formula, spectrum: Spectrum, solvent: str | None = None, field_mhz: float | None = None,
+            keep_all_peaks: bool = False, carbon: CarbonSpectrum | None = None
+            ) -> tuple[Observation, tuple[Dropped, ...]]:
+    """Drop solvent signals and find the plausible integral normalisations; with a 13C list, drop
+    its solvent lines too (the dropped 13C lines follow the 1H ones).
 
     Peaks the chemist labelled as solvent, water or reference are always dropped;
     ``keep_all_peaks`` keeps the unlabelled ones that sit on a solvent's values.
 
-    Raises InputError when nothing is left or the integrals cannot fit the formula.
+    Raises InputError when nothing is left, the integrals cannot fit the formula, or the
+    13C list has more lines than the formula has carbons.
     """
     chosen = find_solvent(solvent or spectrum.solvent or DEFAULT_SOLVENT)
     peaks, labelled = drop_labelled_peaks(spectrum.peaks)
@@ -196,12 +231,34 @@ def observe(formula: Formula, spectrum: Spectrum, solvent: str | None = None,
     labile = exchangeable_bound(formula["N"], formula["O"], formula["S"], hydrogens)
     norms = normalise(peaks, hydrogens, labile)
     field_used = field_mhz or spectrum.field_mhz or DEFAULT_FIELD_MHZ
-    return Observation(peaks, tuple(norms), chosen.id, field_used, chosen.exchange), dropped
+    carbons: tuple[CarbonPeak, ...] = ()
+    if carbon is not None:
+        carbons, carbon_dropped = _observe_carbons(formula, carbon, chosen, keep_all_peaks)
+        dropped += carbon_dropped
+    return Observation(peaks, tuple(norms), chosen.id, field_used, chosen.exchange, carbons), dropped
+
+
+def _observe_carbons(formula: Formula, carbon: CarbonSpectrum, solvent, keep_all_peaks: bool
+                     ) -> tuple[tuple[CarbonPeak, ...], tuple[Dropped, ...]]:
+    """The 13C lines left after the solvent's (only the labelled ones with ``keep_all_peaks``)."""
+    if keep_all_peaks:
+        kept, dropped = drop_labelled_peaks(carbon.peaks)
+    else:
+        spectrum, dropped = drop_carbon_solvent_signals(carbon, solvent)
+        kept = spectrum.peaks
+    if not kept:
+        raise InputError("no 13C lines left after dropping solvent and TMS signals")
+    written = sum(p.carbons or 1 for p in kept)
+    if written > formula["C"]:
+        raise InputError(f"the 13C list holds {written} carbons but {formula.hill} has {formula['C']}; "
+                         "check the formula and the list (solvent lines are dropped by the solvent given)")
+    return tuple(kept), tuple(dropped)
 
 
 # ----------------------------------------------------------------- score ----
 
 _predictors: dict[tuple[str, float], Predictor] = {}
+_carbon_predictors: dict[str, CarbonPredictor] = {}
 
 
 def _predictor(solvent: str, field_mhz: float) -> Predictor:
@@ -211,25 +268,37 @@ def _predictor(solvent: str, field_mhz: float) -> Predictor:
     return _predictors[key]
 
 
-def score(smiles: str, observation: Observation, settings: Settings = DEFAULT_SETTINGS) -> Scored | None:
-    """Predict a candidate's spectrum and match it to the observation.
+def _carbon_predictor(solvent: str) -> CarbonPredictor:
+    if solvent not in _carbon_predictors:
+        _carbon_predictors[solvent] = CarbonPredictor(solvent=solvent)
+    return _carbon_predictors[solvent]
 
-    A pure function of its arguments; returns None for a SMILES RDKit cannot read
-    and for a structure the tables cannot predict (e.g. a carbanion).
+
+def score(smiles: str, observation: Observation, settings: Settings = DEFAULT_SETTINGS,
+          carbon_settings: CarbonSettings = DEFAULT_CARBON_SETTINGS) -> Scored | None:
+    """Predict a candidate's spectra and match them to the observation.
+
+    The misfit is the 1H misfit (best over the integral normalisations) plus, with a 13C list,
+    ``carbon_settings.weight`` times the 13C misfit.  A pure function of its arguments; returns
+    None for a SMILES RDKit cannot read and for a structure the tables cannot predict (e.g. a
+    carbanion).
     """
     mol = Chem.MolFromSmiles(smiles)
     if mol is None:
         return None
     try:
         signals = tuple(_predictor(observation.solvent, observation.field_mhz).predict(mol))
+        carbon_signals = tuple(_carbon_predictor(observation.solvent).predict(mol)) if observation.carbons else ()
     except InputError:
         return None
+    carbon = match_carbons(carbon_signals, observation.carbons, carbon_settings) if observation.carbons else None
+    carbon_misfit = 0.0 if carbon is None else carbon_settings.weight * carbon.misfit
     best = None
     for norm in observation.normalisations:
         m = match(signals, observation.peaks, norm.counts, norm.missing, observation.exchange_absent, settings)
-        misfit = round(m.misfit + norm.error, 6)
+        misfit = round(m.misfit + norm.error + carbon_misfit, 6)
         if best is None or misfit < best.misfit:
-            best = Scored(smiles, misfit, m, norm, signals)
+            best = Scored(smiles, misfit, m, norm, signals, carbon, carbon_signals, carbon_settings.weight)
     return best
 
 
@@ -357,6 +426,7 @@ class _Job:
     hints: tuple[Hint, ...]
     observation: Observation
     settings: Settings
+    carbon_settings: CarbonSettings
     top: int
     temperature: float
     track: str | None
@@ -425,7 +495,7 @@ def _run_unit(unit: _Unit) -> _Tally:
         if job.deadline is not None and time.time() > job.deadline:
             timed_out = True
             break
-        result = score(smiles, job.observation, job.settings)
+        result = score(smiles, job.observation, job.settings, job.carbon_settings)
         if result is None:
             continue
         scored += 1
@@ -484,6 +554,7 @@ class Identifier:
     keep_all_peaks: bool = False
     progress: bool = False
     settings: Settings = field(default_factory=Settings)
+    carbon_settings: CarbonSettings = field(default_factory=CarbonSettings)
     track: str | None = None
 
     def check_options(self) -> None:
@@ -500,10 +571,11 @@ class Identifier:
         if self.solvent is not None:
             find_solvent(self.solvent)
 
-    def identify(self, formula: str, peaks: str | Spectrum,
-                 candidates: str | Sequence[str] | None = None) -> Shortlist:
+    def identify(self, formula: str, peaks: str | Spectrum, candidates: str | Sequence[str] | None = None,
+                 carbon: str | CarbonSpectrum | None = None) -> Shortlist:
         """Run the identification; ``peaks`` is inline text, a file path or a Spectrum; ``candidates``
-        a file of suspects (SMILES or SDF) or a sequence of SMILES, else the formula's isomers.
+        a file of suspects (SMILES or SDF) or a sequence of SMILES, else the formula's isomers;
+        ``carbon`` a 13C list (inline text, a file path or a CarbonSpectrum), scored beside the 1H.
 
         Raises
         ------
@@ -516,7 +588,9 @@ class Identifier:
         self.check_options()
         parsed = parse_formula(formula)
         spectrum = peaks if isinstance(peaks, Spectrum) else read_peaks(peaks)
-        observation, dropped = observe(parsed, spectrum, self.solvent, self.field_mhz, self.keep_all_peaks)
+        if isinstance(carbon, str):
+            carbon = read_carbon_peaks(carbon)
+        observation, dropped = observe(parsed, spectrum, self.solvent, self.field_mhz, self.keep_all_peaks, carbon)
         require = [compile_smarts(s, "--require") for s in self.require]
         forbid = [compile_smarts(s, "--forbid") for s in self.forbid]
         hints = ()
@@ -526,7 +600,7 @@ class Identifier:
         start = time.time()
         deadline = None if self.budget is None else start + self.budget
         job = _Job(parsed, tuple(self.require), tuple(self.forbid), hints, observation, self.settings,
-                   self.top, temperature(), self.track, deadline)
+                   self.carbon_settings, self.top, temperature(), self.track, deadline)
         if candidates is None:
             units, pruned = self._generated_units(result)
         else:

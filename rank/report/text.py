@@ -18,11 +18,12 @@ from pathlib import Path
 
 from ..errors import InputError
 from ..shortlist import CAUTION, Candidate, Shortlist
+from ..spectra import CarbonPeak
 
 __all__ = [
     "CONFIDENCE_DECIMALS", "COUPLING_DECIMALS", "INTEGRAL_DIGITS", "MISFIT_DECIMALS", "PENALTY_DECIMALS",
-    "SHIFT_DECIMALS", "Z_DECIMALS", "assignment_rows", "csv_text", "json_text", "peak_json", "terminal_text",
-    "to_json", "write_whole_file"
+    "SHIFT_DECIMALS", "Z_DECIMALS", "assignment_rows", "carbon_peak_json", "carbon_rows", "csv_text",
+    "dropped_by_nucleus", "json_text", "peak_json", "terminal_text", "to_json", "write_whole_file"
 ]
 
 SHIFT_DECIMALS = 3        # ppm
@@ -71,9 +72,51 @@ def assignment_rows(candidate: Candidate, result: Shortlist) -> list[dict]:
     return rows
 
 
+def carbon_rows(candidate: Candidate, result: Shortlist) -> list[dict]:
+    """Class-by-class 13C assignment of one candidate, predicted against observed; [] without a 13C list."""
+    s = candidate.scored
+    if s.carbon is None:
+        return []
+    rows = []
+    for (k, line), z in zip(s.carbon.pairs, s.carbon.z):
+        sig = s.carbon_signals[k]
+        peak = result.observation.carbons[line] if line is not None else None
+        rows.append({
+            "signal": k,
+            "predicted_shift": round(sig.shift, 2),
+            "type": sig.dept,
+            "carbons": len(sig.atoms),
+            "family": sig.family,
+            "atoms": list(sig.atoms),
+            "sigma": sig.sigma,
+            "line": line,
+            "observed_shift": None if peak is None else round(peak.shift, 2),
+            "observed_type": None if peak is None else peak.dept,
+            "observed_label": None if peak is None else peak.label,
+            "z": None if z is None else round(z, Z_DECIMALS),
+            "explanation": sig.explanation,
+        })
+    return rows
+
+
+def dropped_by_nucleus(result: Shortlist) -> tuple[list, list]:
+    """The dropped 1H peaks and the dropped 13C lines, each with its reason."""
+    carbon = [d for d in result.dropped if isinstance(d.peak, CarbonPeak)]
+    return [d for d in result.dropped if not isinstance(d.peak, CarbonPeak)], carbon
+
+
+def _carbon_json(c: Candidate) -> dict:
+    s = c.scored
+    if s.carbon is None:
+        return {"carbon_misfit": None, "carbon_weight": None, "carbon_parts": None}
+    return {"carbon_misfit": round(s.carbon_misfit, MISFIT_DECIMALS), "carbon_weight": s.carbon_weight,
+            "carbon_parts": {k: round(v, MISFIT_DECIMALS) for k, v in s.carbon.parts._asdict().items()}}
+
+
 def to_json(result: Shortlist) -> dict:
-    """The short list in the documented JSON form."""
+    """The short list in the documented JSON form; the 13C keys are empty or null without a 13C list."""
     obs = result.observation
+    proton_dropped, carbon_dropped = dropped_by_nucleus(result)
     return {
         "formula": result.formula.hill,
         "dbe": result.formula.dbe,
@@ -82,7 +125,9 @@ def to_json(result: Shortlist) -> dict:
         "solvent": obs.solvent,
         "field_mhz": obs.field_mhz,
         "peaks_used": [peak_json(p) for p in obs.peaks],
-        "peaks_dropped": [{**peak_json(d.peak), "reason": d.reason} for d in result.dropped],
+        "peaks_dropped": [{**peak_json(d.peak), "reason": d.reason} for d in proton_dropped],
+        "carbon_peaks_used": [carbon_peak_json(p) for p in obs.carbons],
+        "carbon_peaks_dropped": [{**carbon_peak_json(d.peak), "reason": d.reason} for d in carbon_dropped],
         "normalisations": [{"counts": list(n.counts), "missing": n.missing, "error": round(n.error, PENALTY_DECIMALS)}
                            for n in obs.normalisations],
         "hints": [{"name": h.name, "copies": h.copies, "evidence": h.evidence,
@@ -99,11 +144,14 @@ def to_json(result: Shortlist) -> dict:
                 "misfit": round(c.misfit, MISFIT_DECIMALS),
                 "confidence": round(c.confidence, CONFIDENCE_DECIMALS),
                 "tied": c.tied,
+                "proton_misfit": round(c.scored.proton_misfit, MISFIT_DECIMALS),
                 "parts": {k: round(v, MISFIT_DECIMALS) for k, v in c.scored.match.parts._asdict().items()},
+                **_carbon_json(c),
                 "normalisation": {"counts": list(c.scored.normalisation.counts),
                                   "missing": c.scored.normalisation.missing},
                 "reason": c.reason,
                 "assignment": assignment_rows(c, result),
+                "carbon_assignment": carbon_rows(c, result),
             }
             for c in result.candidates
         ],
@@ -117,6 +165,11 @@ def peak_json(p) -> dict:
             "integral": _significant(p.integral, INTEGRAL_DIGITS),
             "multiplicity": p.multiplicity, "j": [round(j, COUPLING_DECIMALS) for j in p.j],
             "label": p.label}
+
+
+def carbon_peak_json(p: CarbonPeak) -> dict:
+    """One observed 13C line as JSON: shift, type (C, CH, CH2, CH3 or null), carbons written, label."""
+    return {"shift": round(p.shift, 2), "type": p.dept, "carbons": p.carbons, "label": p.label}
 
 
 def _peak_caption(p) -> str:
@@ -155,10 +208,10 @@ def json_text(result: Shortlist) -> str:
 
 def csv_text(result: Shortlist) -> str:
     frame = result.to_frame()
-    decimals = {"misfit": MISFIT_DECIMALS, "confidence": CONFIDENCE_DECIMALS, "shift": MISFIT_DECIMALS,
-                "integral": MISFIT_DECIMALS, "multiplicity": MISFIT_DECIMALS, "coupling": MISFIT_DECIMALS,
-                "count": MISFIT_DECIMALS}
-    return frame.round({k: v for k, v in decimals.items() if k in frame.columns}).to_csv(index=False)
+    decimals = {c: MISFIT_DECIMALS for c in frame.columns if c not in ("rank", "smiles", "inchikey", "tied",
+                                                                        "reason", "confidence")}
+    decimals["confidence"] = CONFIDENCE_DECIMALS
+    return frame.round(decimals).to_csv(index=False)
 
 
 def terminal_text(result: Shortlist, detail: int = 1) -> str:
@@ -168,8 +221,14 @@ def terminal_text(result: Shortlist, detail: int = 1) -> str:
     lines.append(f"formula {result.formula.hill} (DBE {result.formula.dbe}), solvent {obs.solvent}, "
                  f"{obs.field_mhz:g} MHz")
     lines.append("peaks used: " + "; ".join(_peak_caption(p) for p in obs.peaks))
-    for d in result.dropped:
+    if obs.carbons:
+        lines.append("13C lines used: " + "; ".join(p.caption + (f" [{p.label}]" if p.label else "")
+                                                    for p in obs.carbons))
+    proton_dropped, carbon_dropped = dropped_by_nucleus(result)
+    for d in proton_dropped:
         lines.append(f"dropped: {d.peak.caption} ({d.reason})")
+    for d in carbon_dropped:
+        lines.append(f"dropped 13C: {d.peak.caption} ({d.reason})")
     norm = result.candidates[0].scored.normalisation if result.candidates else obs.normalisations[0]
     lines.append(f"integrals: {norm.text}")
     for h in result.hints:
@@ -196,14 +255,39 @@ def terminal_text(result: Shortlist, detail: int = 1) -> str:
     for c in result.candidates[:detail]:
         lines.append("")
         parts = c.scored.match.parts
-        lines.append(f"assignment of rank {c.rank}, {c.smiles}: misfit {c.misfit:.3f} = shift {parts.shift:.3f}"
-                     f" + integrals {parts.integral:.3f} + multiplicities {parts.multiplicity:.3f}"
-                     f" + J {parts.coupling:.3f} + signal count {parts.count:.3f}"
-                     + (f" + rounding {c.scored.normalisation.error:.3f}" if c.scored.normalisation.error else ""))
+        proton = (f"shift {parts.shift:.3f} + integrals {parts.integral:.3f} + multiplicities {parts.multiplicity:.3f}"
+                  f" + J {parts.coupling:.3f} + signal count {parts.count:.3f}"
+                  + (f" + rounding {c.scored.normalisation.error:.3f}" if c.scored.normalisation.error else ""))
+        if c.scored.carbon is not None:
+            proton = (f"1H {c.scored.proton_misfit:.3f} ({proton}) + 13C {c.scored.carbon_weight:g} × "
+                      f"{c.scored.carbon.misfit:.3f}")
+        lines.append(f"assignment of rank {c.rank}, {c.smiles}: misfit {c.misfit:.3f} = {proton}")
         lines.append(f"  {'obs δ':>6} {'mult':<5} {'pred δ':>6} {'nH':>3} {'mult':<5} {'z':>5}  arithmetic")
         for row in assignment_rows(c, result):
             obs_shift = "absent" if row["observed_shift"] is None else f"{row['observed_shift']:.2f}"
             obs_mult = row["observed_multiplicity"] or "-"
             lines.append(f"  {obs_shift:>6} {obs_mult:<5} {row['predicted_shift']:6.2f} {row['n_h']:>3} "
                          f"{row['predicted_multiplicity']:<5} {row['z']:5.1f}  {row['explanation']}")
+        lines.extend(_carbon_lines(c, result))
     return "\n".join(lines) + "\n"
+
+
+def _carbon_lines(c: Candidate, result: Shortlist) -> list[str]:
+    """The 13C assignment of one candidate as terminal lines; none without a 13C list."""
+    if c.scored.carbon is None:
+        return []
+    p = c.scored.carbon.parts
+    total = (f"13C assignment: {c.scored.carbon.misfit:.3f} = (shift {p.shift:.3f} + type {p.type:.3f} + shared "
+             f"lines {p.overlap:.3f} + unplaced {p.unplaced:.3f} + empty lines {p.empty:.3f}), each per carbon class")
+    lines = [total,
+             f"  {'obs δ':>6} {'type':<4} {'pred δ':>6} {'type':<4} {'nC':>3} {'z':>5}  arithmetic"]
+    for row in carbon_rows(c, result):
+        obs_shift = "absent" if row["observed_shift"] is None else f"{row['observed_shift']:.1f}"
+        z = "-" if row["z"] is None else f"{row['z']:.1f}"
+        lines.append(f"  {obs_shift:>6} {row['observed_type'] or '-':<4} {row['predicted_shift']:6.1f} "
+                     f"{row['type']:<4} {row['carbons']:>3} {z:>5}  {row['explanation']}")
+    placed = {row["line"] for row in carbon_rows(c, result)}
+    for i, peak in enumerate(result.observation.carbons):
+        if i not in placed:
+            lines.append(f"  {peak.shift:6.1f} {peak.dept or '-':<4} {'':>6} {'':<4} {'':>3} {'':>5}  empty line")
+    return lines
