@@ -17,9 +17,9 @@ from rdkit import Chem
 from rdkit.Chem.Draw import rdMolDraw2D
 
 from ..shortlist import CAUTION, Candidate, Shortlist
-from .text import assignment_rows
+from .text import assignment_rows, carbon_rows, dropped_by_nucleus
 
-__all__ = ["PALETTE", "report_html", "stick_svg", "structure_svg"]
+__all__ = ["PALETTE", "carbon_stick_svg", "report_html", "stick_svg", "structure_svg"]
 
 PALETTE = ("#1f77b4", "#d62728", "#2ca02c", "#9467bd", "#ff7f0e", "#17becf", "#8c564b",
            "#e377c2", "#bcbd22", "#7f7f7f", "#393b79", "#ad494a", "#637939", "#843c39")
@@ -138,7 +138,7 @@ def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height:
     """
     peaks = result.observation.peaks
     signals = candidate.scored.signals
-    dropped = [d.peak for d in result.dropped]
+    dropped = [d.peak for d in dropped_by_nucleus(result)[0]]
     shifts = [p.high for p in peaks + tuple(dropped)] + [p.low for p in peaks + tuple(dropped)]
     shifts += [s.shift for s in signals]
     high = max(10.0, max(shifts) + 0.5)
@@ -189,6 +189,93 @@ def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height:
     return "".join(parts)
 
 
+def carbon_stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height: int = 200) -> str:
+    """Observed 13C lines above the baseline, the candidate's predicted carbon classes below.
+
+    Heights are carbons (a line written as 2C, a class of equivalent carbons); a predicted class
+    has the colour of its observed line's first class, grey when unplaced; an observed line no
+    class took is grey, a dropped line grey and dashed.  The ppm axis decreases to the right.
+    """
+    lines, signals = result.observation.carbons, candidate.scored.carbon_signals
+    dropped = [d.peak for d in dropped_by_nucleus(result)[1]]
+    shifts = [p.shift for p in lines] + [p.shift for p in dropped] + [s.shift for s in signals]
+    high = max(220.0, max(shifts) + 5)
+    low = min(0.0, min(shifts) - 5)
+    left, right, top, mid, axis = 70, width - 16, 14, 90, 170
+
+    def x(ppm: float) -> float:
+        return left + (high - ppm) / (high - low) * (right - left)
+
+    line_of = dict(candidate.scored.carbon.pairs)
+    owner: dict[int, int] = {}
+    for k, line in candidate.scored.carbon.pairs:
+        if line is not None:
+            owner.setdefault(line, k)
+    observed = [p.carbons or 1 for p in lines]
+    scale = (mid - top - 6) / max(observed + [len(s.atoms) for s in signals] + [1])
+    parts = [(f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" '
+              f'viewBox="0 0 {width} {height}" role="img" aria-label="13C stick spectrum" font-size="11">')]
+    for tick in range(int(math.floor(high / 20) * 20), int(low) - 1, -20):
+        xt = f"{x(tick):.1f}"
+        parts.append(f'<line x1="{xt}" y1="{top}" x2="{xt}" y2="{axis}" stroke="#eee"/>'
+                     f'<line x1="{xt}" y1="{axis}" x2="{xt}" y2="{axis + 4}" stroke="#444"/>'
+                     f'<text x="{xt}" y="{axis + 16}" text-anchor="middle">{tick}</text>')
+    parts.append(f'<line x1="{left}" y1="{mid}" x2="{right}" y2="{mid}" stroke="#444"/>'
+                 f'<line x1="{left}" y1="{axis}" x2="{right}" y2="{axis}" stroke="#444"/>'
+                 f'<text x="{right}" y="{height - 2}" text-anchor="end">δC / ppm</text>'
+                 f'<text x="{left - 6}" y="{mid - 6}" text-anchor="end">observed</text>'
+                 f'<text x="{left - 6}" y="{mid + 15}" text-anchor="end">predicted</text>')
+    for p in dropped:
+        parts.append(f'<line x1="{x(p.shift):.1f}" y1="{mid}" x2="{x(p.shift):.1f}" y2="{mid - scale:.1f}" '
+                     f'stroke="#999" stroke-width="2" stroke-dasharray="3 2">'
+                     f'<title>{escape(p.caption)}, dropped</title></line>')
+    for i, p in enumerate(lines):
+        color = _color(owner[i]) if i in owner else "#999"
+        h = observed[i] * scale
+        parts.append(f'<line x1="{x(p.shift):.1f}" y1="{mid}" x2="{x(p.shift):.1f}" y2="{mid - h:.1f}" '
+                     f'stroke="{color}" stroke-width="2"><title>{escape(p.caption)}</title></line>')
+    for k, s in enumerate(signals):
+        line = line_of.get(k)
+        color = _color(owner[line]) if line is not None else "#999"
+        parts.append(f'<line x1="{x(s.shift):.1f}" y1="{mid}" x2="{x(s.shift):.1f}" '
+                     f'y2="{mid + len(s.atoms) * scale:.1f}" stroke="{color}" stroke-width="2">'
+                     f'<title>{s.shift:.1f} ppm, {escape(s.dept)}, {len(s.atoms)} C</title></line>')
+    parts.append("</svg>")
+    return "".join(parts)
+
+
+def _carbon_section(c: Candidate, result: Shortlist) -> str:
+    """The 13C part of a candidate's section: misfit parts, stick spectrum, assignment; "" without 13C."""
+    match = c.scored.carbon
+    if match is None:
+        return ""
+    p = match.parts
+    rows = []
+    for row in carbon_rows(c, result):
+        obs = "not observed" if row["observed_shift"] is None else f"{row['observed_shift']:.1f}"
+        z = "" if row["z"] is None else f"{row['z']:.1f}"
+        rows.append(f"<tr><td>{escape(row['family'])}</td><td class='num'>{obs}</td>"
+                    f"<td>{escape(row['observed_type'] or '')}</td><td class='num'>{row['predicted_shift']:.1f}</td>"
+                    f"<td>{escape(row['type'])}</td><td class='num'>{row['carbons']}</td><td class='num'>{z}</td>"
+                    f"<td><code>{escape(row['explanation'])}</code></td></tr>")
+    return (
+        f"<h3>13C: {c.scored.carbon_weight:g} × {match.misfit:.3f} = {c.scored.carbon_misfit:.3f} of the misfit</h3>"
+        f"<div>{carbon_stick_svg(c, result)}<p class='muted legend'>{_CARBON_LEGEND}</p></div>"
+        "<table><tr><th>13C misfit part (per carbon class)</th><th>value</th></tr>"
+        f"<tr><td>shift residuals</td><td class='num'>{p.shift:.3f}</td></tr>"
+        f"<tr><td>type (DEPT)</td><td class='num'>{p.type:.3f}</td></tr>"
+        f"<tr><td>classes sharing a line</td><td class='num'>{p.overlap:.3f}</td></tr>"
+        f"<tr><td>classes without a line</td><td class='num'>{p.unplaced:.3f}</td></tr>"
+        f"<tr><td>empty lines</td><td class='num'>{p.empty:.3f}</td></tr></table>"
+        "<table><tr><th>carbon</th><th>observed δC</th><th>obs. type</th><th>predicted δC</th><th>type</th>"
+        "<th>nC</th><th>z</th><th>arithmetic</th></tr>" + "".join(rows) + "</table>"
+    )
+
+
+_CARBON_LEGEND = ("13C lines observed above, the candidate's carbon classes predicted below, heights in carbons; "
+                  "a class has its line's colour, grey when no line took it. Grey line: no class assigned; dashed: "
+                  "dropped.")
+
 _LEGEND = ("Observed above the line, predicted below, heights in H; each colour is one proton class of the "
            "structure and the table. Grey: observed peak with no class assigned; dashed: dropped peak.")
 
@@ -221,6 +308,7 @@ def _candidate_section(c: Candidate, result: Shortlist) -> str:
         f"<tr><td>integral rounding</td><td class='num'>{c.scored.normalisation.error:.3f}</td></tr></table>"
         "<table><tr><th>class</th><th>observed δ</th><th>obs.</th><th>predicted δ</th><th>nH</th>"
         "<th>pred.</th><th>z</th><th>arithmetic</th></tr>" + "".join(rows) + "</table>"
+        + _carbon_section(c, result)
     )
 
 
@@ -234,6 +322,8 @@ def report_html(result: Shortlist, title: str | None = None, shown: int = 5) -> 
         f"<td class='num'>{'' if p.integral is None else f'{p.integral:g}'}</td>"
         f"<td>{escape(', '.join(f'{j:g}' for j in p.j))}</td><td>{escape(p.label)}</td></tr>" for p in obs.peaks)
     dropped = "".join(f"<li>{escape(d.peak.caption)}: {escape(d.reason)}</li>" for d in result.dropped)
+    carbons = "".join(f"<tr><td class='num'>{p.shift:.1f}</td><td>{escape(p.dept or '')}</td>"
+                      f"<td class='num'>{p.carbons or ''}</td><td>{escape(p.label)}</td></tr>" for p in obs.carbons)
     hints = "".join(f"<li>{escape(h.claim)} from {escape(h.evidence)}: removed about "
                     f"{result.hinted.get(h.name, 0):,} structures</li>" for h in result.hints)
     summary = "".join(
@@ -249,6 +339,8 @@ def report_html(result: Shortlist, title: str | None = None, shown: int = 5) -> 
         f"solvent {escape(obs.solvent)}; {obs.field_mhz:g} MHz; integrals "
         f"{escape(norm.text)}.</p>"
         "<table><tr><th>δ / ppm</th><th>peak</th><th>H</th><th>J / Hz</th><th>label</th></tr>" + used + "</table>"
+        + ("<table><tr><th>δC / ppm</th><th>type</th><th>C</th><th>label</th></tr>" + carbons + "</table>"
+           if carbons else "")
         + (f"<p>Dropped:</p><ul>{dropped}</ul>" if dropped else "<p>No peak dropped.</p>")
         + (f"<p>Hints applied (turn off with --no-hints):</p><ul>{hints}</ul>" if hints else "")
         + f"<p>{result.explored:,} candidates scored; search {escape(state)}.</p>"
