@@ -14,17 +14,22 @@ One signal per symmetry class of carbon (topological symmetry), with its DEPT ty
   (``carbon_benzene.tsv``); of a five-membered ring: the parent heterocycle's value at the position
   (``carbon_heteroaromatic.tsv``) + the same substituent increments;
 * carbonyl, carboxyl (acids, esters, amides, carbamates, ...), nitrile, imine and other carbons:
-  a typical value by class (``carbon_functional.tsv``);
-* then, optionally, an environment correction fitted on real spectra (``carbon_environment.tsv``,
-  ``rank.predict.environment``), as one more named term.
+  a typical value by class (``carbon_functional.tsv``).
+
+Each table value in use is the handbook value of the table plus a delta refitted on the fit part of
+the open data (``carbon_refit.tsv``, ridge regression towards the handbook values by
+``benchmarks/fit_carbon.py``); a term shows the value in use, and its ``rows`` name the refit row.
+Then, by default, an environment correction fitted on the same data (``carbon_environment.tsv``,
+``rank.predict.environment``) is added as one more named term.  σ is the family's residual spread on
+the fit part (``carbon_sigma.tsv``), with or without the environment correction.
 
 The solvent is checked but no solvent correction is applied (13C shifts move little between the
 common solvents; the fitted corrections absorb the average).
 
->>> [(s.shift, s.dept) for s in predict_carbon_smiles("CCOC(C)=O", environment=False)]
-[(172.5, 'C'), (57.8, 'CH2'), (17.7, 'CH3'), (12.8, 'CH3')]
->>> print(predict_carbon_smiles("CCOC(C)=O", environment=False)[1].explanation)
-base −2.30 + α C 9.10 + α OC(=O)R 51.00 = 57.80
+>>> [(s.dept, s.family) for s in predict_carbon_smiles("CCOC(C)=O")]
+[('C', 'carboxyl'), ('CH2', 'sp3'), ('CH3', 'sp3'), ('CH3', 'sp3')]
+>>> [t.name for t in predict_carbon_smiles("CCOC(C)=O")[1].terms]  # doctest: +ELLIPSIS
+['base', 'α C', 'α OC(=O)R', 'CH2 carbon', 'environment correction (... compounds, sd ...)']
 
 References are given in the header of each table.
 """
@@ -44,7 +49,8 @@ from ..tables import read_table
 from .environment import environment_codes, find_correction
 from .shifts import Term
 
-__all__ = ["CARBON_FAMILIES", "CARBON_RADIUS", "CarbonPredictor", "CarbonSignal", "predict_carbon_smiles"]
+__all__ = ["CARBON_FAMILIES", "CARBON_RADIUS", "AdditiveFeatures", "CarbonPredictor", "CarbonSignal",
+           "additive_features", "predict_carbon_smiles"]
 
 CARBON_FAMILIES = ("carbonyl", "carboxyl", "nitrile", "aromatic", "heteroaromatic", "alkene", "alkyne", "sp3")
 CARBON_RADIUS = 4
@@ -175,29 +181,47 @@ def _tables() -> _Tables:
 
 
 class _Arithmetic:
-    """Collects the terms of one shift, merging repeats of a name (``α C ×2``)."""
+    """Collects the terms of one shift, merging repeats of a name (``α C ×2``).
 
-    def __init__(self, base: str, value: float, row: str) -> None:
-        self.base = Term(base, value)
+    Each value is a table value plus its refit delta (``carbon_refit.tsv``); ``features`` counts each
+    (row, column) used and ``handbook`` sums the table values alone, for the fit.
+    """
+
+    def __init__(self, name: str, row: _Row, column: str) -> None:
         self.values: dict[str, float] = {}
         self.counts: dict[str, int] = defaultdict(int)
-        self.rows = [row]
+        self.features: dict[str, float] = defaultdict(float)
+        self.rows: list[str] = []
+        self.handbook = 0.0
+        self.add(name, row, column)
 
-    def add(self, name: str, value: float | None, row: str) -> None:
+    def add(self, name: str, row: _Row, column: str, times: float = 1.0) -> None:
+        value = row.num(column)
         if value is None:
             return
-        self.values[name] = self.values.get(name, 0.0) + value
+        feature = f"{row.key}:{column}"
+        delta = _refit().get(feature, 0.0)
+        self.handbook += value * times
+        self.features[feature] += times
+        self.values[name] = self.values.get(name, 0.0) + (value + delta) * times
         self.counts[name] += 1
-        if row not in self.rows:
-            self.rows.append(row)
+        for key in (row.key, f"carbon_refit:{feature}" if delta else None):
+            if key is not None and key not in self.rows:
+                self.rows.append(key)
 
     def terms(self) -> tuple[Term, ...]:
-        out = [self.base]
-        for name, value in self.values.items():
+        out = []
+        for k, (name, value) in enumerate(self.values.items()):
             n = self.counts[name]
-            if value:
+            if value or k == 0:
                 out.append(Term(name if n == 1 else f"{name} ×{n}", round(value, 2)))
         return tuple(out)
+
+
+@cache
+def _refit() -> dict[str, float]:
+    """Refit deltas by feature ``table:row:column`` (``rules/carbon_refit.tsv``)."""
+    return {r["feature"]: float(r["delta"]) for r in read_table("carbon_refit")}
 
 
 class _Molecule:
@@ -249,7 +273,9 @@ class _Molecule:
         """How the carbon is bonded: ("aromatic"|"functional"|"alkyne"|"alkene"|"sp3", partner)."""
         a = self.mol.GetAtomWithIdx(atom)
         if a.GetIsAromatic():
-            return "aromatic", None
+            exocyclic = any(b.GetBondType() == Chem.BondType.DOUBLE and b.GetOtherAtom(a).GetAtomicNum() in (8, 16)
+                            for b in a.GetBonds())
+            return ("functional" if exocyclic else "aromatic"), None
         doubles, triples = [], []
         for b in a.GetBonds():
             other = b.GetOtherAtom(a)
@@ -262,7 +288,9 @@ class _Molecule:
         if triples:
             return "alkyne", triples[0].GetIdx()
         if doubles:
-            return "alkene", doubles[0].GetIdx()
+            partner = doubles[0]
+            cumulated = sum(1 for b in partner.GetBonds() if b.GetBondType() == Chem.BondType.DOUBLE) > 1
+            return ("functional" if cumulated else "alkene"), partner.GetIdx()
         if a.GetAtomicNum() == 6 and all(b.GetBondType() == Chem.BondType.SINGLE for b in a.GetBonds()):
             return "sp3", None
         return "functional", None
@@ -274,7 +302,7 @@ class _Molecule:
 def _sp3(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
     t = _tables().sp3
     base = t["base"][0]
-    arith = _Arithmetic("base", base.num("value"), base.key)
+    arith = _Arithmetic("base", base, "value")
     position = {int(r.fields["key"]): r for r in t["position"]}
     dist = {atom: 0}
     frontier = [atom]
@@ -286,7 +314,7 @@ def _sp3(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
                     dist[n] = d
                     reached.append(n)
         for _ in reached:
-            arith.add(position[d].label, position[d].num("value"), position[d].key)
+            arith.add(position[d].label, position[d], "value")
         frontier = reached
     # steric corrections: sp3 carbon neighbours of the carbon and of each attached sp3 carbon
     steric = {r.fields["key"]: r for r in t["steric"]}
@@ -298,7 +326,7 @@ def _sp3(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
         if m.sp3c[n]:
             row = steric.get(f"{degree(atom)}-{degree(n)}")
             if row is not None:
-                arith.add(row.label, row.num("value"), row.key)
+                arith.add(row.label, row, "value")
     # substituents other than sp3 carbon: alpha, beta, gamma by the sp3 carbon carrying them
     classes = m.classify("sp3_substituent", _tables().sp3_substituent)
     placed: dict[int, tuple[int, int]] = {}
@@ -315,22 +343,23 @@ def _sp3(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
         iso = len(m.heavy[a]) - 1 >= 2
         column = ("alpha", "beta", "gamma")[d]
         if d < 2:
-            value = row.num(f"{column}_iso") if iso else None
-            value = row.num(f"{column}_n") if value is None else value
-        else:
-            value = row.num("gamma")
-        arith.add(f"{'αβγ'[d]} {row.label}", value, row.key)
+            column = f"{column}_iso" if iso and row.num(f"{column}_iso") is not None else f"{column}_n"
+        arith.add(f"{'αβγ'[d]} {row.label}", row, column)
+    hydrogens = {r.fields["key"]: r for r in t.get("hydrogens", [])}
+    row = hydrogens.get(str(m.mol.GetAtomWithIdx(atom).GetTotalNumHs()))
+    if row is not None:
+        arith.add(row.label, row, "value")
     ring = m.smallest_ring((atom,))
     if ring >= 3:
         rows = {int(r.fields["key"]): r for r in t["ring"]}
         row = rows[min(ring, max(rows))]
-        arith.add(row.label, row.num("value"), row.key)
+        arith.add(row.label, row, "value")
     hetero = sum(1 for n in m.heavy[atom] if m.mol.GetAtomWithIdx(n).GetAtomicNum() in _HETERO)
     if hetero >= 2:
         for row in t["site"]:
             if row.query is not None and any(match[0] == atom for match in m.mol.GetSubstructMatches(row.query)):
                 count = hetero - 1 if row.fields["key"] == "gem_hetero" else 1
-                arith.add(row.label, (row.num("value") or 0.0) * count, row.key)
+                arith.add(row.label, row, "value", count)
                 break
     return arith, "sp3"
 
@@ -355,8 +384,9 @@ def _unsaturated(m: _Molecule, atom: int, partner: int, kind: str) -> tuple[_Ari
     """Alkene or alkyne carbon: base + position and substituent increments from both ends."""
     t = _tables().alkene if kind == "alkene" else _tables().alkyne
     base = t["base"][0]
-    arith = _Arithmetic("base", base.num("z1"), base.key)
-    alpha, beta, gamma = (next(r for r in t["position"] if r.fields["id"] == k) for k in ("alpha", "beta", "gamma"))
+    arith = _Arithmetic("base", base, "z1")
+    position = {r.fields["id"]: r for r in t["position"]}
+    alpha, beta, gamma, beta_hetero = (position.get(k) for k in ("alpha", "beta", "gamma", "beta_hetero"))
     classes = m.classify(f"{kind}_substituent", t["substituent"])
     substituents = {}
     for side, (here, other) in enumerate(((atom, partner), (partner, atom))):
@@ -365,27 +395,33 @@ def _unsaturated(m: _Molecule, atom: int, partner: int, kind: str) -> tuple[_Ari
         substituents[side] = subs
         for x in subs:
             if m.sp3c[x]:
-                arith.add(f"α{prime} C", alpha.num(column), alpha.key)
+                arith.add(f"α{prime} C", alpha, column)
                 n_beta, n_gamma = _chain(m, x, {atom, partner}, 2)
+                n_hetero = sum(1 for y in m.heavy[x] if y not in (atom, partner)
+                               and m.mol.GetAtomWithIdx(y).GetAtomicNum() in _HETERO)
+                if beta_hetero is not None:
+                    for _ in range(n_hetero):
+                        arith.add(f"β{prime} heteroatom", beta_hetero, column)
+                    n_beta -= n_hetero
                 for _ in range(n_beta):
-                    arith.add(f"β{prime}", beta.num(column), beta.key)
+                    arith.add(f"β{prime}", beta, column)
                 for _ in range(n_gamma):
-                    arith.add(f"γ{prime}", gamma.num(column), gamma.key)
+                    arith.add(f"γ{prime}", gamma, column)
             else:
                 row = classes.get((here, x))
                 if row is not None:
-                    arith.add(f"{row.label}{' (on partner)' if side else ''}", row.num(column), row.key)
+                    arith.add(f"{row.label}{' (on partner)' if side else ''}", row, column)
     if kind == "alkene":
         pairs = {r.fields["id"]: r for r in t["pair"]}
         if len(substituents[0]) == 2:
-            arith.add(pairs["gem"].label, pairs["gem"].num("z1"), pairs["gem"].key)
+            arith.add(pairs["gem"].label, pairs["gem"], "z1")
         if len(substituents[1]) == 2:
-            arith.add(pairs["gem_partner"].label, pairs["gem_partner"].num("z1"), pairs["gem_partner"].key)
+            arith.add(pairs["gem_partner"].label, pairs["gem_partner"], "z1")
         ring = m.smallest_ring((atom, partner))
         if ring >= 4:
             rows = {int(r.fields["id"].removeprefix("ring")): r for r in t["ring"]}
             row = rows[min(ring, max(rows))]
-            arith.add(row.label, row.num("z1"), row.key)
+            arith.add(row.label, row, "z1")
     return arith, kind
 
 
@@ -400,18 +436,18 @@ def _aromatic(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
     if six:
         home = max(six, key=heteroatoms)
         base = t["base"][0]
-        arith = _Arithmetic("base", base.num("ipso"), base.key)
+        arith = _Arithmetic("base", base, "ipso")
     elif rings:
         home = min(rings, key=len)
         row = m.first_match("heteroaromatic", _tables().heteroaromatic, atom)
         if row is None:
             base = t["base"][0]
-            arith = _Arithmetic("base", base.num("ipso"), base.key)
+            arith = _Arithmetic("base", base, "ipso")
         else:
-            arith = _Arithmetic(f"base {row.label}", row.num("shift"), row.key)
+            arith = _Arithmetic(f"base {row.label}", row, "shift")
     else:   # aromatic atom outside the ring perception (should not happen): benzene value
         base = t["base"][0]
-        return _Arithmetic("base", base.num("ipso"), base.key), "aromatic"
+        return _Arithmetic("base", base, "ipso"), "aromatic"
     family = "heteroaromatic" if heteroatoms(home) else "aromatic"
     n = len(home)
     index = home.index(atom)
@@ -419,17 +455,23 @@ def _aromatic(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
     classes = m.classify("benzene_increment", t.get("increment", []))
     fused = {r.fields["id"]: r for r in t.get("fused", [])}
     aza = t["aza"][0]
+    ring_hetero = {r.fields["id"]: r for r in t.get("ring_hetero", [])}
     for j, a in enumerate(home):
         d = min(abs(j - index), n - abs(j - index))
         column = columns[d]
-        if d and len(home) == 6 and _is_pyridine_n(m, a):
-            arith.add(f"{aza.label} {column}", aza.num(column), aza.key)
+        if d and len(home) == 6 and m.mol.GetAtomWithIdx(a).GetAtomicNum() != 6:
+            hetero = _ring_heteroatom(m, a)
+            row = aza if hetero == "aza" else ring_hetero.get(hetero)
+            if row is not None:
+                arith.add(f"{row.label} {column}", row, column)
         for x in m.heavy[a]:
             if x in home:
                 continue
             bond = m.mol.GetBondBetweenAtoms(a, x)
             if bond.GetIsAromatic():
                 if len(home) != 6:
+                    if d and "fused_on5" in fused:
+                        arith.add(f"{fused['fused_on5'].label} {column}", fused["fused_on5"], column)
                     continue
                 other = [r for r in m.aromatic_rings if a in r and x in r and r != home]
                 size = len(other[0]) if other else 6
@@ -439,30 +481,46 @@ def _aromatic(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
                     row = fused["fused5_hetero"]
                 else:
                     row = fused["fused5_carbon"]
-                arith.add(f"{row.label} {column}", row.num(column), row.key)
+                arith.add(f"{row.label} {column}", row, column)
                 continue
             row = classes.get((a, x))
             if row is not None:
-                arith.add(f"{row.label} {column}", row.num(column), row.key)
+                arith.add(f"{row.label} {column}", row, column)
+    crowd = t.get("crowd", [])
+    if crowd and len(home) == 6 and _substituted(m, atom, home):
+        pairs = sum(1 for n in m.heavy[atom] if n in home and _substituted(m, n, home))
+        if pairs:
+            arith.add(crowd[0].label, crowd[0], "ipso", pairs)
     if len(home) == 6:
         for row in t.get("site", []):
             if row.query is not None and any(match[0] == atom for match in m.mol.GetSubstructMatches(row.query)):
-                arith.add(row.label, row.num("ipso"), row.key)
+                arith.add(row.label, row, "ipso")
                 break
     return arith, family
 
 
-def _is_pyridine_n(m: _Molecule, atom: int) -> bool:
+def _substituted(m: _Molecule, atom: int, ring: tuple[int, ...]) -> bool:
+    """A ring atom carrying a substituent (a heavy neighbour outside the ring, not by an aromatic bond)."""
+    return any(n not in ring and not m.mol.GetBondBetweenAtoms(atom, n).GetIsAromatic() for n in m.heavy[atom])
+
+
+def _ring_heteroatom(m: _Molecule, atom: int) -> str:
+    """The kind of a ring heteroatom of a six-membered aromatic ring: aza (pyridine type), aza_h (N-H or
+    N-R), aza_plus (N+), oxa, thia or "" (other)."""
     a = m.mol.GetAtomWithIdx(atom)
-    return a.GetAtomicNum() == 7 and a.GetIsAromatic() and a.GetDegree() == 2 and a.GetTotalNumHs() == 0 \
-        and a.GetFormalCharge() == 0
+    number = a.GetAtomicNum()
+    if number == 7:
+        if a.GetFormalCharge() > 0:
+            return "aza_plus"
+        return "aza" if a.GetDegree() == 2 and a.GetTotalNumHs() == 0 else "aza_h"
+    return {8: "oxa", 16: "thia"}.get(number, "")
 
 
 def _functional(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
     row = m.first_match("functional", _tables().functional, atom)
     if row is None:
         row = _tables().functional[-1]
-    return _Arithmetic(f"base {row.label}", row.num("shift"), row.key), row.fields["family"]
+    return _Arithmetic(f"base {row.label}", row, "shift"), row.fields["family"]
 
 
 def _arithmetic(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
@@ -520,17 +578,10 @@ class CarbonPredictor:
             A sanitised molecule; explicit hydrogens are allowed (atom indices refer to ``mol``).
         """
         heavy, index = _heavy(mol)
-        m = _Molecule(heavy)
-        ranks = list(Chem.CanonicalRankAtoms(heavy, breakTies=False))
-        classes: dict[int, list[int]] = defaultdict(list)
-        for a in heavy.GetAtoms():
-            if a.GetAtomicNum() == 6:
-                classes[ranks[a.GetIdx()]].append(a.GetIdx())
         sigma = _tables().sigma
         signals = []
-        for atoms in classes.values():
+        for atoms, arith, family in _carbon_classes(heavy):
             first = atoms[0]
-            arith, family = _arithmetic(m, first)
             terms = arith.terms()
             rows = list(arith.rows)
             corrected = False
@@ -550,6 +601,35 @@ class CarbonPredictor:
                                         terms=terms, family=family, rows=tuple(rows)))
         signals.sort(key=lambda s: (-s.shift, s.atoms[0]))
         return signals
+
+
+def _carbon_classes(heavy: Chem.Mol) -> list[tuple[list[int], _Arithmetic, str]]:
+    """(atoms, arithmetic, family) per symmetry class of carbon of a molecule without explicit H."""
+    m = _Molecule(heavy)
+    ranks = list(Chem.CanonicalRankAtoms(heavy, breakTies=False))
+    classes: dict[int, list[int]] = defaultdict(list)
+    for a in heavy.GetAtoms():
+        if a.GetAtomicNum() == 6:
+            classes[ranks[a.GetIdx()]].append(a.GetIdx())
+    return [(atoms, *_arithmetic(m, atoms[0])) for atoms in classes.values()]
+
+
+class AdditiveFeatures(NamedTuple):
+    """The additive arithmetic of one carbon class, for fitting: ``handbook`` is the shift from the table
+    values alone, ``features`` how often each ``table:row:column`` value was used."""
+
+    atoms: tuple[int, ...]
+    family: str
+    n_h: int
+    handbook: float
+    features: dict[str, float]
+
+
+def additive_features(mol: Chem.Mol) -> list[AdditiveFeatures]:
+    """The table values behind each carbon class's additive shift (no explicit H; used by the fit)."""
+    return [AdditiveFeatures(tuple(atoms), family, mol.GetAtomWithIdx(atoms[0]).GetTotalNumHs(), arith.handbook,
+                             dict(arith.features))
+            for atoms, arith, family in _carbon_classes(mol)]
 
 
 def _heavy(mol: Chem.Mol) -> tuple[Chem.Mol, list[int]]:
