@@ -80,10 +80,11 @@ def main() -> None:
             under_before += plain <= DEFAULT_CEILING
             under_after += limited <= DEFAULT_CEILING
             if limited <= args.build:
-                kept = sum(1 for _ in stream)
-                planned = sum(stream.plan().hinted.values())
-                checked_out = sum(stream.hinted.values()) - planned   # removed by the checks of built structures
-                if kept + checked_out:
+                built = IsomerStream(formula, ceiling=0, limits=limits, budget=60)
+                kept = sum(1 for _ in built)
+                planned = sum(built.plan().hinted.values())
+                checked_out = sum(built.hinted.values()) - planned   # removed by the checks of built structures
+                if built.complete_run and kept + checked_out:
                     kept_shares.append(kept / (kept + checked_out))
             print(f"\r{'typed' if typed else 'untyped'} {i + 1}/{len(cases)} {time.time() - start:.0f} s",
                   end="", file=sys.stderr)

@@ -206,3 +206,15 @@ def test_a_bound_on_carbons_with_a_double_bond_cuts_partial_structures_in_the_co
     assert got == kept and kept
     assert stream.explored < everything.explored  # cut in the core, not built and checked
     assert stream.hinted["one sp2 CH"] > 0 and stream.hinted["two sp2 C"] > 0
+
+
+def test_a_line_written_with_its_carbon_count_counts_that_many():
+    from types import SimpleNamespace
+
+    # toluene with the 2C lines written: 3 CH lines holding 5 CH, no carbon left to hide
+    lines = [SimpleNamespace(shift=137.9, n_h=0, carbons=None), SimpleNamespace(shift=129.1, n_h=1, carbons=2),
+             SimpleNamespace(shift=128.3, n_h=1, carbons=2), SimpleNamespace(shift=125.4, n_h=1, carbons=None),
+             SimpleNamespace(shift=21.5, n_h=3, carbons=None)]
+    limits = {lim.name: lim for lim in carbon_limits(parse_formula("C7H8"), lines)}
+    assert (limits["13C: CH"].lower, limits["13C: CH"].upper) == (5, 5)
+    assert (limits["13C: CH3"].lower, limits["13C: CH3"].upper) == (1, 1)

@@ -123,13 +123,19 @@ class Kind:
         Parameters
         ----------
         mol : Chem.Mol
-            Sanitised, hydrogens implicit; an aromatic atom carries a double bond in every Kekule form.
+            Sanitised, hydrogens implicit; double and triple bonds are read on a Kekule form.
 
         Returns
         -------
         int
         """
         matched = None
+        bonds_of = mol
+        if (self.double_bond is not None or self.triple_bond is not None) and any(
+                a.GetIsAromatic() for a in mol.GetAtoms()):
+            # the bonds of a Kekule form: which atoms carry a double bond is the same in every one
+            bonds_of = Chem.Mol(mol)
+            Chem.Kekulize(bonds_of, clearAromaticFlags=True)
         if self._pattern is not None:
             matched = {m[0] for m in mol.GetSubstructMatches(self._pattern, uniquify=True, maxMatches=10_000)}
         atoms = []
@@ -138,13 +144,11 @@ class Kind:
                 continue
             if self.hydrogens is not None and a.GetTotalNumHs() not in self.hydrogens:
                 continue
-            if self.double_bond is not None:
-                double = a.GetIsAromatic() or any(b.GetBondType() == Chem.BondType.DOUBLE for b in a.GetBonds())
-                if double is not self.double_bond:
+            if self.double_bond is not None or self.triple_bond is not None:
+                orders = {b.GetBondType() for b in bonds_of.GetAtomWithIdx(a.GetIdx()).GetBonds()}
+                if self.double_bond is not None and (Chem.BondType.DOUBLE in orders) is not self.double_bond:
                     continue
-            if self.triple_bond is not None:
-                triple = any(b.GetBondType() == Chem.BondType.TRIPLE for b in a.GetBonds())
-                if triple is not self.triple_bond:
+                if self.triple_bond is not None and (Chem.BondType.TRIPLE in orders) is not self.triple_bond:
                     continue
             if matched is not None and a.GetIdx() not in matched:
                 continue
@@ -254,17 +258,17 @@ def _caption(shift: float, n_h: int | None) -> str:
     return f"{shift:.1f}" if n_h is None else f"{shift:.1f} ({_TYPE_NAMES[n_h]})"
 
 
-def carbon_limits(formula: Formula, peaks: Sequence[tuple[float, int | None]], *, missing: int | None = None,
+def carbon_limits(formula: Formula, peaks: Sequence, *, missing: int | None = None,
                   shared: int | None = None, mistyped: int | None = None) -> tuple[Limit, ...]:
     """The limits a 13C peak list sets on the carbons of every structure of the formula.
 
     Parameters
     ----------
     formula : Formula
-    peaks : sequence of (float, int or None)
-        Shift (ppm) and DEPT type (H on the carbon, 0-3; None when not given) of each peak;
-        a ``CarbonPeak`` (``.shift``, ``.n_h``) unpacks the same way once turned into a tuple.
-        Solvent peaks must be left out.
+    peaks : sequence of (float, int or None), or of peaks with ``.shift``, ``.n_h`` (and ``.carbons``)
+        Shift (ppm) and DEPT type (H on the carbon, 0-3; None when not given) of each line,
+        as ``rank.spectra.CarbonPeak`` gives them; a line written with its carbon count (``2C``)
+        counts that many carbons.  Solvent lines must be left out.
     missing, shared, mistyped : int, optional
         Tolerances (default: the settings of ``rules/constraints.tsv``): quaternary carbons the
         list may miss, peaks that may each hold two inequivalent carbons, DEPT types that may
@@ -287,7 +291,9 @@ def carbon_limits(formula: Formula, peaks: Sequence[tuple[float, int | None]], *
     missing = _setting("missing") if missing is None else missing
     shared = _setting("shared") if shared is None else shared
     mistyped = _setting("mistyped") if mistyped is None else mistyped
-    peaks = [(float(s), n) for s, n in peaks]
+    lines = [_line(p) for p in peaks]
+    # a line written with its carbon count (2C) stands for that many carbons; environments count lines
+    peaks = [(s, n) for s, n, k in lines for _ in range(k)]
     carbons = formula["C"]
     hidden = carbons - len(peaks)
     if not peaks or hidden < 0:
@@ -310,8 +316,17 @@ def carbon_limits(formula: Formula, peaks: Sequence[tuple[float, int | None]], *
         if limit is not None:
             limits.append(limit)
     if carbons <= _setting("environments"):
-        limits.extend(_environment_limits(peaks, carbons, missing, shared, untyped))
+        limits.extend(_environment_limits([(s, n) for s, n, _ in lines], carbons, missing, shared, untyped))
     return tuple(lim for lim in limits if lim.lower > 0 or (lim.upper is not None and lim.upper < carbons))
+
+
+def _line(peak) -> tuple[float, int | None, int]:
+    """(shift, H count or None, carbons) of a (shift, n_h) pair or of a peak with ``.shift``, ``.n_h``
+    and optionally ``.carbons`` (None: one)."""
+    if hasattr(peak, "shift"):
+        return float(peak.shift), peak.n_h, getattr(peak, "carbons", None) or 1
+    shift, n_h = peak
+    return float(shift), n_h, 1
 
 
 def _region_limit(row: _Row, peaks: list[tuple[float, int | None]], hidden: int, carbons: int,

@@ -148,7 +148,7 @@ class EnumeratorFactory:
                 bans[j * size + i] |= closed
         return bytes(bans)
 
-    def build(self, types: TypeCounts, part: int = 0, parts: int = 1) -> _enum.Enumerator:
+    def build(self, types: TypeCounts, part: int = 0, parts: int = 1, groups: bool = True) -> _enum.Enumerator:
         """A fresh enumerator for the run, or for share ``part`` of ``parts`` of it.
 
         Parameters
@@ -157,6 +157,8 @@ class EnumeratorFactory:
             The run; each type's value in the canonical code falls with its position.
         part, parts : int, default 0 and 1
             Which of the disjoint, together complete shares of the search to take.
+        groups : bool, default True
+            False leaves out the double-bond groups of ``double_limits``.
 
         Returns
         -------
@@ -171,7 +173,7 @@ class EnumeratorFactory:
             part=part,
             parts=parts,
             needs_double=[isinstance(t, AtomType) and bool(t.double_bond) for t, _ in types],
-            double_groups=self.double_groups(types) if self.double_limits else None,
+            double_groups=self.double_groups(types) if self.double_limits and groups else None,
         )
 
     def estimate(self, types: TypeCounts, probes: int = PLAN_PROBES, seed: int = 1) -> float:
@@ -188,10 +190,18 @@ class EnumeratorFactory:
         Returns
         -------
         float
+            With double-bond groups, a run whose probes all die is estimated without them.
 
         References
         ----------
         D. E. Knuth, "Estimating the efficiency of backtrack programs",
         Math. Comp. 1975, 29, 121. doi:10.1090/S0025-5718-1975-0373371-6
         """
-        return self.build(types).estimate(probes, seed)
+        found = self.build(types).estimate(probes, seed)
+        if found == 0 and self.double_limits:
+            # a bound on double bonds often fails only deep in the tree, where every probe may die: more
+            # probes, then the run without the bounds (an estimate from above, so a ceiling stays safe)
+            found = self.build(types).estimate(4 * probes, seed)
+            if found == 0:
+                found = self.build(types, groups=False).estimate(probes, seed)
+        return found

@@ -340,7 +340,9 @@ class IsomerStream:
         core = self._factory.build(types, part, parts)
         kinds = [t for t, _ in types]
         accept = self._acceptor
-        checks = tuple(lim for lim in self.limits if not lim.settled(types))
+        # the core meets its own double-bond bounds exactly; the types settle others
+        checks = tuple(lim for lim in self.limits
+                       if lim not in self._factory.double_limits and not lim.settled(types))
         while deadline is None or time.time() <= deadline:
             skipped, records = core.next_batch(_BATCH, unbuilt)
             if not records and not skipped:
