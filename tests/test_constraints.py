@@ -218,3 +218,62 @@ def test_a_line_written_with_its_carbon_count_counts_that_many():
     limits = {lim.name: lim for lim in carbon_limits(parse_formula("C7H8"), lines)}
     assert (limits["13C: CH"].lower, limits["13C: CH"].upper) == (5, 5)
     assert (limits["13C: CH3"].lower, limits["13C: CH3"].upper) == (1, 1)
+
+
+def test_limits_and_a_group_hint_together_give_the_hinted_structures_that_satisfy_the_limits():
+    # butyrophenone, CDCl3: 200.4 (C), 137.1 (C), 132.9 (CH), 128.6 (2 CH), 128.1 (2 CH), 40.5 (CH2),
+    # 17.8 (CH2), 13.9 (CH3); five aromatic H read as a monosubstituted benzene ring
+    parsed = parse_formula("C10H12O")
+    hints = [Hint("monosubstituted benzene ring", "test", fragments=("*c1ccccc1",))]
+    limits = carbon_limits(parsed, [(200.4, 0), (137.1, 0), (132.9, 1), (128.6, 1), (128.1, 1), (40.5, 2),
+                                    (17.8, 2), (13.9, 3)])
+    got = {iso.smiles for iso in IsomerStream(parsed, hints=hints, limits=limits)}
+    hinted = list(IsomerStream(parsed, hints=hints))
+    assert got == {iso.smiles for iso in hinted if all(lim.holds(iso.mol) for lim in limits)}
+    assert got == {"CCCC(=O)c1ccccc1", "CC(=O)CCc1ccccc1", "CCC(=O)Cc1ccccc1"}
+
+
+# rules/constraints.tsv window row -> (a list it bounds, with its compound; a near miss where it stays silent, why).
+# Typical CDCl3 values (Pretsch, Buhlmann, Badertscher, 4th ed., 13C chapter; from memory).
+TOLUENE = ("C7H8", "Cc1ccccc1", [(137.9, 0), (129.1, 1), (128.3, 1), (125.4, 1), (21.5, 3)])
+BENZOTRIFLUORIDE = ("C7H5F3", "FC(F)(F)c1ccccc1", [(131.8, 1), (130.9, 0), (128.7, 1), (125.3, 1), (124.3, 0)])
+HEXANE = ("C6H14", "CCCCCC", [(31.6, 2), (22.7, 2), (14.1, 3)])
+BENZENE = ("C6H6", "c1ccccc1", [(128.5, 1)])
+EXAMPLES = {
+    "dbl_c": (TOLUENE, BENZOTRIFLUORIDE, "the ipso C at 130.9 and the CF3 C at 124.3 are below 136"),
+    "dbl_ch": (TOLUENE, ("C7H16O3", "CCOC(OCC)OCC", [(112.6, 1), (59.9, 2), (15.2, 3)]),
+               "the orthoformate CH at 112.6 is sp3"),
+    "dbl_ch2": (("C5H8O2", "C=CC(=O)OCC", [(166.1, 0), (130.4, 2), (128.7, 1), (60.5, 2), (14.2, 3)]),
+                ("C7H6O2", "c1ccc2c(c1)OCO2", [(147.6, 0), (121.6, 1), (108.6, 1), (100.8, 2)]),
+                "the OCH2O carbon at 100.8 is sp3"),
+    "dbl_any": (("C7H8", "Cc1ccccc1", [(s, None) for s, _ in TOLUENE[2]]),
+                ("C7H5F3", "FC(F)(F)c1ccccc1", [(s, None) for s, _ in BENZOTRIFLUORIDE[2]]),
+                "no line above 131.8 without types"),
+    "dbl_c_max": (HEXANE, ("C6Cl6", "Clc1c(Cl)c(Cl)c(Cl)c(Cl)c1Cl", [(132.5, 0)]),
+                  "one C line and five hidden carbons: any of the six may be sp2"),
+    "dbl_ch_max": (HEXANE, BENZENE, "one CH line and five hidden carbons: any of the six may be sp2"),
+    "dbl_ch2_max": (HEXANE, ("C2H4", "C=C", [(123.3, 2)]), "one CH2 line and one hidden carbon"),
+    "dbl_max": (("C6H14", "CCCCCC", [(s, None) for s, _ in HEXANE[2]]), ("C6H6", "c1ccccc1", [(128.5, None)]),
+                "as dbl_c_max"),
+    "triple_max": (HEXANE, ("C2H2", "C#C", [(71.9, 1)]), "the acetylene line may hold both carbons"),
+    "carbonyl_max": (HEXANE, ("C2H2O4", "O=C(O)C(=O)O", [(160.0, 0)]), "the oxalic acid line may hold both"),
+    "c_x_min": (("C4H8O", "CCC(C)=O", [(209.3, 0), (36.9, 2), (29.4, 3), (7.9, 3)]),
+                ("C4H8O2", "CCOC(C)=O", [(171.1, 0), (60.4, 2), (21.0, 3), (14.2, 3)]),
+                "an ester C=O at 171.1 is below 186"),
+    "ox_ch3": (("C3H6O2", "COC(C)=O", [(171.4, 0), (51.6, 3), (20.6, 3)]),
+               ("C2H6O2S", "CS(C)(=O)=O", [(42.6, 3)]), "CH3SO2 at 42.6 is below 49"),
+}
+
+
+def test_every_window_row_has_an_example_and_a_near_miss():
+    assert set(EXAMPLES) == {r.id for r in constraint_rules() if r.kind == "region"}
+
+
+@pytest.mark.parametrize("row_id", sorted(EXAMPLES))
+def test_window_row_bounds_its_example_and_stays_silent_on_its_near_miss(row_id):
+    name = {v: k for k, v in limit_rows().items()}[row_id]
+    (formula, smiles, peaks), (miss_formula, _, miss_peaks), why = EXAMPLES[row_id]
+    fired = {lim.name: lim for lim in carbon_limits(parse_formula(formula), peaks)}
+    assert name in fired
+    assert fired[name].holds(Chem.MolFromSmiles(smiles))
+    assert name not in {lim.name for lim in carbon_limits(parse_formula(miss_formula), miss_peaks)}, why
