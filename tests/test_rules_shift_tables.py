@@ -8,6 +8,8 @@ checked against handbook data in test_predict.py and test_predict_reference.py.
 
 from __future__ import annotations
 
+import re
+
 import pytest
 from rdkit import Chem
 
@@ -142,6 +144,7 @@ BENZENE = {
     "ch2_hal": ("ClCc1ccccc1", "ClCCc1ccccc1"),
     "ch2_o": ("OCc1ccccc1", "OCCc1ccccc1"),
     "ch2_n": ("NCc1ccccc1", "NCCc1ccccc1"),
+    "ch2_acyl": ("N#CCc1ccccc1", "CCc1ccccc1"),
     "methyl": ("Cc1ccccc1", "CCc1ccccc1"),
     "ch2_alkyl": ("CCc1ccccc1", "Cc1ccccc1"),
     "ch_alkyl": ("CC(C)c1ccccc1", "CCc1ccccc1"),
@@ -426,3 +429,27 @@ def test_every_known_solvent_has_solvent_rows():
     assert set(solvent_names()) <= listed
     for name in solvent_names():
         Predictor(name)  # accepted
+
+
+PROVENANCE = re.compile(r"\w+ fitted on \d+ compounds \(sd \d+\.\d\d; was -?\d+\.\d\d from memory\)|^from memory"
+                        r"|fitted on \d+ H of the fit compounds \(was \d+\.\d\d from memory\)")
+
+
+@pytest.mark.parametrize("table", sorted(TABLES) + ["sigma"])
+def test_every_row_says_how_its_values_were_set(table):
+    # benchmarks/fit_increments.py marks each row: fitted on the open data (with the value it replaced) or
+    # from memory; a table with a fitted row names the open data in its header
+    rows = read_table(table)
+    unmarked = [r.get("id", r.get("family")) for r in rows if not PROVENANCE.search(r.get("provenance", ""))]
+    assert not unmarked, f"{table}.tsv rows without a provenance mark: {unmarked}"
+    if any("fitted on" in r["provenance"] for r in rows):
+        from rank.tables import table_notes
+
+        assert "NMRShiftDB2" in " ".join(table_notes(table))
+
+
+@pytest.mark.parametrize("table", sorted(TABLES))
+def test_a_fitted_value_differs_from_the_value_it_replaced(table):
+    for r in read_table(table):
+        for column, was in re.findall(r"(\w+) fitted on [^;]*; was (-?[\d.]+) from memory", r["provenance"]):
+            assert float(r[column]) != float(was), f"{table}.tsv row {r['id']}: {column} marked fitted, unchanged"

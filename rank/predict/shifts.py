@@ -417,14 +417,7 @@ class ShiftCalculator:
             When ``rules/shift_special.tsv`` has no row for a hydrogen of another family.
         """
         family, tables = draft.family, self._matched.tables
-        if family in SP3_FAMILIES:
-            arithmetic = _alkyl_sum(self._matched, draft)
-        elif family == "alkene":
-            arithmetic = _alkene_sum(self._matched, draft)
-        elif family in ("aromatic", "heteroaromatic"):
-            arithmetic = _ring_sum(self._matched, draft)
-        else:
-            arithmetic = _special_sum(self._matched, draft)
+        arithmetic = _arithmetic(self._matched, draft)
         solvent_term, solvent_row = _solvent_correction(tables, self.solvent, family, arithmetic.solvent_target)
         terms = _tidy(arithmetic.terms + ([solvent_term] if solvent_term else []))
         shift = round(sum(t.value for t in terms), 2)
@@ -472,6 +465,17 @@ class _Matched:
     @cached_property
     def special(self) -> dict[int, SpecialRow]:
         return _first_matches(self.graph, self.tables.special, _on_atom)
+
+
+def _arithmetic(matched: _Matched, draft: ClassDraft) -> _Sum:
+    """The unrounded terms of one class's shift, by its family (before the solvent)."""
+    if draft.family in SP3_FAMILIES:
+        return _alkyl_sum(matched, draft)
+    if draft.family == "alkene":
+        return _alkene_sum(matched, draft)
+    if draft.family in ("aromatic", "heteroaromatic"):
+        return _ring_sum(matched, draft)
+    return _special_sum(matched, draft)
 
 
 def _alkyl_sum(matched: _Matched, draft: ClassDraft) -> _Sum:
