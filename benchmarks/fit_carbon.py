@@ -225,9 +225,9 @@ def main(argv: list[str]) -> int:
     plain = [(f, r) for found in residuals(data, {}) for f, _, r in found]
     print(f"fit part: {len(cases)} compounds, {len(plain)} paired classes; handbook additive MAE {mae(plain):.2f}")
     if args.select:
-        for ridge in (-1.0, 1.0, 10.0, 100.0):
-            for min_classes in (5, 10, 30):
-                for shrink in (0.5, 1.0, 2.0):
+        for ridge in (0.3, 1.0, 3.0):
+            for min_classes in (3, 5, 10):
+                for shrink in (1.0,):
                     a, b = cross_fitted(data, ridge, min_classes, args.min_compounds, shrink, CARBON_RADIUS)
                     print(f"ridge {ridge} min_classes {min_classes} shrink {shrink}: cross-fitted MAE additive "
                           f"{mae(a):.3f}, with correction {mae(b):.3f}", flush=True)
@@ -252,7 +252,7 @@ def main(argv: list[str]) -> int:
             table_name, row_id, column = k.split(":")
             key = "key" if table_name == "carbon_sp3" else "id"
             row = next(r for r in read_table(table_name) if r[key] == row_id)
-            handbook[k] = row[column]
+            handbook[k] = row[column.split("@")[0]]
         text = REFIT_HEADER.format(compounds=len(cases), ridge=args.ridge, min_classes=args.min_classes)
         text += "".join(f"{k}\t{handbook[k]}\t{v}\t{support[k]}\n" for k, v in sorted(deltas.items()))
         REFIT.write_text(text, encoding="utf-8")

@@ -152,6 +152,7 @@ class _Tables(NamedTuple):
     alkene: dict[str, list[_Row]]          # by kind: base, position, pair, ring, substituent
     alkyne: dict[str, list[_Row]]
     functional: list[_Row]
+    functional_substituent: list[_Row]
     sigma: dict[str, tuple[float, float]]
 
 
@@ -173,6 +174,7 @@ def _tables() -> _Tables:
         alkene=_by_kind(_rows("carbon_alkene")),
         alkyne=_by_kind(_rows("carbon_alkyne")),
         functional=_rows("carbon_functional"),
+        functional_substituent=_rows("carbon_functional_substituent"),
         sigma=sigma,
     )
 
@@ -195,11 +197,13 @@ class _Arithmetic:
         self.handbook = 0.0
         self.add(name, row, column)
 
-    def add(self, name: str, row: _Row, column: str, times: float = 1.0) -> None:
+    def add(self, name: str, row: _Row, column: str, times: float = 1.0, variant: str = "") -> None:
+        """Add ``times`` the value of ``row`` in ``column``; ``variant`` (e.g. ``@5``, on a five-membered
+        ring) gives the value its own refit delta."""
         value = row.num(column)
         if value is None:
             return
-        feature = f"{row.key}:{column}"
+        feature = f"{row.key}:{column}{variant}"
         delta = _refit().get(feature, 0.0)
         self.handbook += value * times
         self.features[feature] += times
@@ -336,6 +340,7 @@ def _sp3(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
         for x in m.heavy[a]:
             if not m.sp3c[x] and (x not in placed or placed[x][0] > d):
                 placed[x] = (d, a)
+    n_h = m.mol.GetAtomWithIdx(atom).GetTotalNumHs()
     for x, (d, a) in placed.items():
         row = classes.get((a, x))
         if row is None:
@@ -344,14 +349,15 @@ def _sp3(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
         column = ("alpha", "beta", "gamma")[d]
         if d < 2:
             column = f"{column}_iso" if iso and row.num(f"{column}_iso") is not None else f"{column}_n"
-        arith.add(f"{'αβγ'[d]} {row.label}", row, column)
+        variant = f"@{_DEPT[min(3, n_h)]}" if d == 0 else ""
+        arith.add(f"{'αβγ'[d]} {row.label}", row, column, variant=variant)
     hydrogens = {r.fields["key"]: r for r in t.get("hydrogens", [])}
-    row = hydrogens.get(str(m.mol.GetAtomWithIdx(atom).GetTotalNumHs()))
+    row = hydrogens.get(f"h{n_h}")
     if row is not None:
         arith.add(row.label, row, "value")
     ring = m.smallest_ring((atom,))
     if ring >= 3:
-        rows = {int(r.fields["key"]): r for r in t["ring"]}
+        rows = {int(r.fields["key"].removeprefix("r")): r for r in t["ring"]}
         row = rows[min(ring, max(rows))]
         arith.add(row.label, row, "value")
     hetero = sum(1 for n in m.heavy[atom] if m.mol.GetAtomWithIdx(n).GetAtomicNum() in _HETERO)
@@ -485,7 +491,7 @@ def _aromatic(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
                 continue
             row = classes.get((a, x))
             if row is not None:
-                arith.add(f"{row.label} {column}", row, column)
+                arith.add(f"{row.label} {column}", row, column, variant="" if len(home) == 6 else "@5")
     crowd = t.get("crowd", [])
     if crowd and len(home) == 6 and _substituted(m, atom, home):
         pairs = sum(1 for n in m.heavy[atom] if n in home and _substituted(m, n, home))
@@ -520,7 +526,14 @@ def _functional(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
     row = m.first_match("functional", _tables().functional, atom)
     if row is None:
         row = _tables().functional[-1]
-    return _Arithmetic(f"base {row.label}", row, "shift"), row.fields["family"]
+    arith = _Arithmetic(f"base {row.label}", row, "shift")
+    if row.fields["family"] in ("carbonyl", "carboxyl"):
+        classes = m.classify("functional_substituent", _tables().functional_substituent)
+        for x in m.heavy[atom]:
+            found = classes.get((atom, x))
+            if found is not None:
+                arith.add(found.label, found, "value")
+    return arith, row.fields["family"]
 
 
 def _arithmetic(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
