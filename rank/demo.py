@@ -29,6 +29,7 @@ class Unknown:
     sample: str
     formula: str
     peaks: Traversable
+    carbon: Traversable | None
     note: str
 
 
@@ -42,7 +43,8 @@ def unknowns() -> list[Unknown]:
     folder = demo_dir()
     lines = [ln for ln in (folder / "unknowns.tsv").read_text(encoding="utf-8").splitlines()
              if ln.strip() and not ln.startswith("#")]
-    return [Unknown(r["sample"], r["formula"], folder / r["peaks"], r["note"])
+    return [Unknown(r["sample"], r["formula"], folder / r["peaks"], folder / r["carbon"] if r["carbon"] else None,
+                    r["note"])
             for r in csv.DictReader(lines, delimiter="\t")]
 
 
@@ -61,9 +63,11 @@ def run_demo(out: Path, top: int = 5, workers: int = 1, echo=print) -> list[tupl
     folder.mkdir(parents=True)
     done = []
     for u in unknowns():
-        echo(f"=== {u.sample}: {u.note} ({u.formula}, peaks from {u.peaks.name}) ===")
-        with as_file(u.peaks) as peaks_file:
-            result = Identifier(top=top, workers=workers).identify(u.formula, str(peaks_file))
+        carbon = f", 13C from {u.carbon.name}" if u.carbon is not None else ""
+        echo(f"=== {u.sample}: {u.note} ({u.formula}, peaks from {u.peaks.name}{carbon}) ===")
+        with as_file(u.peaks) as peaks_file, as_file(u.carbon or u.peaks) as carbon_file:
+            result = Identifier(top=top, workers=workers).identify(
+                u.formula, str(peaks_file), carbon=str(carbon_file) if u.carbon is not None else None)
         echo(terminal_text(result))
         path = folder / f"{u.sample}.html"
         write_whole_file(str(path), report_html(result, title=f"{u.sample}: {u.note}"))

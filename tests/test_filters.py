@@ -93,6 +93,11 @@ EXAMPLES: dict[str, tuple[list[str], list[str]]] = {
         ["C1CN2NC12", "C1CC2NN12"],  # diaziridines fused to a four- and a five-membered ring
         ["CC1(C)NN1C", "C1CC2OC2C1"],  # a lone diaziridine; cyclopentene oxide (one heteroatom)
     ),
+    "short_bridged_benzene": (
+        ["CC1(C)Oc2ccc1cc2", "C1CCc2ccc1cc2", "c1cc2cc(c1)CC2"],  # para by two and three atoms; meta by two
+        ["c1ccc2c(c1)CC2", "C1CCc2ccc(cc2)C1", "C1=CC2C=CC1C2"],  # benzocyclobutene; [4]paracyclophane;
+        # norbornadiene (sp3 bridgeheads)
+    ),
     "hypervalent_s_without_o": (
         ["C=S=C"],  # S(IV) with two C=S
         ["CS(C)=O"],  # dimethyl sulfoxide
