@@ -250,7 +250,7 @@ def _add_identify(sub) -> None:
     ide.add_argument("--forbid", action="append", default=[], metavar="SMARTS",
                      help="candidates must not match (repeatable)")
     ide.add_argument("--no-hints", action="store_true",
-                     help="do not narrow the isomer space with hints read from the peaks")
+                     help="do not narrow the isomer space with hints read from the peaks or limits from the 13C list")
     ide.add_argument("--keep-all-peaks", action="store_true", help="do not drop solvent, water and TMS signals")
     ide.add_argument("--workers", type=_positive_int, default=None, metavar="N", help=_WORKERS_HELP)
     ide.add_argument("--budget", type=_seconds, metavar="SECONDS", help="stop scoring after this long and say so")

@@ -31,7 +31,16 @@ from rdkit.Chem import rdMolDescriptors
 
 from .errors import InputError
 from .formula import Formula, parse_formula
-from .generate import DEFAULT_CEILING, Hint, IsomerStream, SpaceTooLarge, compile_smarts, read_hints
+from .generate import (
+    DEFAULT_CEILING,
+    Hint,
+    IsomerStream,
+    Limit,
+    SpaceTooLarge,
+    carbon_limits,
+    compile_smarts,
+    read_hints,
+)
 from .match import (
     DEFAULT_CARBON_SETTINGS,
     DEFAULT_SETTINGS,
@@ -143,6 +152,9 @@ class Shortlist:
     complete: bool
     hints: tuple[Hint, ...] = ()
     hinted: dict[str, int] = field(default_factory=dict)
+    limits: tuple[Limit, ...] = ()
+    """Limits on atom counts read from the 13C list, applied inside the generator; what each removed is
+    in ``hinted`` under its name."""
     skipped_inputs: int = 0
     other_formula: int = 0
     mixtures: int = 0
@@ -424,6 +436,7 @@ class _Job:
     require: tuple[str, ...]
     forbid: tuple[str, ...]
     hints: tuple[Hint, ...]
+    limits: tuple[Limit, ...]
     observation: Observation
     settings: Settings
     carbon_settings: CarbonSettings
@@ -486,7 +499,8 @@ def _run_unit(unit: _Unit) -> _Tally:
     best, log_norm, scored, misfits, tracked, timed_out = _Best(job.top), -math.inf, 0, [], None, False
     stream = None
     if unit.types is not None:
-        stream = IsomerStream(job.formula, require=job.require, forbid=job.forbid, ceiling=0, hints=job.hints)
+        stream = IsomerStream(job.formula, require=job.require, forbid=job.forbid, ceiling=0, hints=job.hints,
+                              limits=job.limits)
         source: Iterable[str] = (iso.smiles for iso in stream.stream_run(list(unit.types), unit.part,
                                                                         unit.parts, job.deadline))
     else:
@@ -523,8 +537,8 @@ class Identifier:
     solvent : overrides the peak list's own solvent; CDCl3 when neither says.
     field_mhz : overrides the peak list's spectrometer frequency; 400 when neither says.
     require, forbid : SMARTS that narrow the candidates.
-    use_hints : read hints from the spectrum to narrow the isomer space
-        (each one reported with what it removed).
+    use_hints : read hints from the spectrum, and limits on carbon counts from the 13C list,
+        to narrow the isomer space (each one reported with what it removed).
     workers : processes that generate and score; 1 works in this process
         (the command line's default is :func:`available_cores`).
         The result does not depend on it: the work is cut into the same units
@@ -593,13 +607,15 @@ class Identifier:
         observation, dropped = observe(parsed, spectrum, self.solvent, self.field_mhz, self.keep_all_peaks, carbon)
         require = [compile_smarts(s, "--require") for s in self.require]
         forbid = [compile_smarts(s, "--forbid") for s in self.forbid]
-        hints = ()
+        hints, limits = (), ()
         if self.use_hints:
             hints = tuple(read_hints(observation.peaks, observation.normalisations[0].counts, parsed))
-        result = Shortlist(parsed, observation, dropped, [], 0, False, hints)
+            if candidates is None and observation.carbons:
+                limits = carbon_limits(parsed, observation.carbons)
+        result = Shortlist(parsed, observation, dropped, [], 0, False, hints, limits=limits)
         start = time.time()
         deadline = None if self.budget is None else start + self.budget
-        job = _Job(parsed, tuple(self.require), tuple(self.forbid), hints, observation, self.settings,
+        job = _Job(parsed, tuple(self.require), tuple(self.forbid), hints, limits, observation, self.settings,
                    self.carbon_settings, self.top, temperature(), self.track, deadline)
         if candidates is None:
             units, pruned = self._generated_units(result)
@@ -615,7 +631,7 @@ class Identifier:
         """The generator's work units, once the space is known to be under the ceiling; and the
         hydrogen distributions a one-atom pattern ruled out (pattern -> count)."""
         stream = IsomerStream(result.formula, require=self.require, forbid=self.forbid, ceiling=self.ceiling,
-                              hints=result.hints)
+                              hints=result.hints, limits=result.limits)
         try:
             stream.check_ceiling()
         except SpaceTooLarge as exc:

@@ -326,6 +326,8 @@ def report_html(result: Shortlist, title: str | None = None, shown: int = 5) -> 
                       f"<td class='num'>{p.carbons or ''}</td><td>{escape(p.label)}</td></tr>" for p in obs.carbons)
     hints = "".join(f"<li>{escape(h.claim)} from {escape(h.evidence)}: removed about "
                     f"{result.hinted.get(h.name, 0):,} structures</li>" for h in result.hints)
+    hints += "".join(f"<li>{escape(lim.claim)} ({escape(lim.evidence)}): removed about "
+                     f"{result.hinted.get(lim.name, 0):,} structures</li>" for lim in result.limits)
     summary = "".join(
         f"<tr><td class='num'>{c.rank}{'=' if c.tied else ''}</td><td><code>{escape(c.smiles)}</code></td>"
         f"<td class='num'>{c.misfit:.3f}</td><td class='num'>{c.confidence:.1%}</td>"
@@ -342,7 +344,7 @@ def report_html(result: Shortlist, title: str | None = None, shown: int = 5) -> 
         + ("<table><tr><th>δC / ppm</th><th>type</th><th>C</th><th>label</th></tr>" + carbons + "</table>"
            if carbons else "")
         + (f"<p>Dropped:</p><ul>{dropped}</ul>" if dropped else "<p>No peak dropped.</p>")
-        + (f"<p>Hints applied (turn off with --no-hints):</p><ul>{hints}</ul>" if hints else "")
+        + (f"<p>Hints and limits applied (turn off with --no-hints):</p><ul>{hints}</ul>" if hints else "")
         + f"<p>{result.explored:,} candidates scored; search {escape(state)}.</p>"
         "<h2>Short list</h2><table><tr><th>rank</th><th>SMILES</th><th>misfit</th><th>confidence</th>"
         "<th>reason</th></tr>" + summary + "</table>"

@@ -133,6 +133,8 @@ def to_json(result: Shortlist) -> dict:
         "hints": [{"name": h.name, "copies": h.copies, "evidence": h.evidence,
                    "removed": result.hinted.get(h.name, 0)}
                   for h in result.hints],
+        "limits": [{"name": lim.name, "claim": lim.claim, "evidence": lim.evidence, "tolerance": lim.tolerance,
+                    "removed": result.hinted.get(lim.name, 0)} for lim in result.limits],
         "candidates_file_skipped_lines": result.skipped_inputs,
         "candidates_file_note": result.candidates_file_note(),
         "candidates_other_formula": result.other_formula,
@@ -235,6 +237,11 @@ def terminal_text(result: Shortlist, detail: int = 1) -> str:
         removed = result.hinted.get(h.name, 0)
         lines.append(f"hint: {h.claim} from {h.evidence}; removed about {removed:,} structures "
                      "(--no-hints turns hints off)")
+    for lim in result.limits:
+        removed = result.hinted.get(lim.name, 0)
+        tolerance = f", allowing {lim.tolerance}" if lim.tolerance else ""
+        lines.append(f"limit: {lim.claim} ({lim.evidence}{tolerance}); removed about {removed:,} structures "
+                     "(--no-hints turns limits off)")
     if result.skipped_inputs:
         lines.append(f"candidates file: {result.skipped_inputs} unreadable lines skipped")
     if result.other_formula:
