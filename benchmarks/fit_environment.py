@@ -8,7 +8,8 @@ atom (``rank.predict.environment``).  A code seen on at least ``--min-compounds`
 keeps the mean residual of its compounds, shrunk towards its parent code's value by
 n / (n + ``--shrink``).  The table is written to ``rules/environment.tsv`` with its header.
 
-Nothing of the held-out part is read.  Usage: python benchmarks/fit_environment.py [--write]
+``--cv K`` only cross-validates on the fit part (K folds).
+Nothing of the held-out part is read.  Usage: python benchmarks/fit_environment.py [--cv K] [--write]
 """
 
 from __future__ import annotations
@@ -66,6 +67,37 @@ def fit(cases, min_compounds: int, shrink: float) -> dict[str, tuple[int, int, f
     return table
 
 
+def cross_validate(cases, folds: int, min_compounds: int, shrink: float) -> None:
+    """K-fold cross-validation on the fit part: each fold's per-H error with the corrections fitted on the
+    other folds (predicted and observed re-paired after the correction), against the additive prediction."""
+    table = predictors(environment=False)
+    before, after = [], []
+    for fold in range(folds):
+        train = [c for k, c in enumerate(cases) if k % folds != fold]
+        fitted = fit(train, min_compounds, shrink)
+        for case in (c for k, c in enumerate(cases) if k % folds == fold):
+            paired = paired_h(case, predictor_for(case, table))
+            if paired is None:
+                continue
+            signals, pairs = paired
+            observed = sorted(o for _, o in pairs)
+            mol = Chem.MolFromSmiles(case.smiles)
+            plain, corrected = [], []
+            for s in signals:
+                codes = environment_codes(mol, s.atoms[0])
+                found = next((fitted[c] for c in reversed(codes) if c in fitted), None)
+                shift = s.shift + (round(found[2], 2) if found else 0.0)
+                plain += [s.shift] * s.n_h
+                corrected += [shift] * s.n_h
+            before += [abs(o - p) for o, p in zip(observed, sorted(plain))]
+            after += [abs(o - p) for o, p in zip(observed, sorted(corrected))]
+        print(f"  fold {fold + 1}/{folds}: {len(fitted)} codes", flush=True)
+    for label, errors in (("additive increments", before), ("with environment corrections", after)):
+        errors.sort()
+        print(f"{folds}-fold CV on the fit part, {label}: {len(errors)} H, MAE {statistics.fmean(errors):.3f}, "
+              f"median {statistics.median(errors):.3f}, p95 {errors[int(0.95 * len(errors))]:.3f}")
+
+
 HEADER = """# Environment corrections of the 1H predictor, ppm: observed − additive prediction, by atom-centred
 # environment code (rank/predict/environment.py; spheres as in HOSE codes, W. Bremser, Anal. Chim. Acta
 # 1978, 103, 355). Fitted by benchmarks/fit_environment.py on the fit part ({compounds} compounds) of the
@@ -83,8 +115,12 @@ def main(argv: list[str]) -> int:
     parser.add_argument("--min-compounds", type=int, default=3)
     parser.add_argument("--shrink", type=float, default=2.0)
     parser.add_argument("--write", action="store_true", help="write rules/environment.tsv")
+    parser.add_argument("--cv", type=int, default=0, help="only cross-validate on the fit part, with this many folds")
     args = parser.parse_args(argv)
     cases = read_cases(str(DATA), "fit")
+    if args.cv:
+        cross_validate(cases, args.cv, args.min_compounds, args.shrink)
+        return 0
     table = fit(cases, args.min_compounds, args.shrink)
     print(f"fit part: {len(cases)} compounds; {len(table)} codes "
           + ", ".join(f"radius {r}: {sum(1 for v in table.values() if v[0] == r)}" for r in range(MAX_RADIUS + 1)))
