@@ -1,19 +1,28 @@
-"""Fit the environment corrections and the σ of the 13C predictor on the fit part of the open data set.
+"""Fit the table deltas, the environment corrections and the σ of the 13C predictor on the fit part of the
+open data set.
 
-For every fit-part compound of ``benchmarks/data/open-spectra.tsv`` (derived from NMRShiftDB2; see its
-header) the additive prediction without environment correction is paired with the observed 13C entries
-(``predict_carbon_open.pair``: Hungarian algorithm on |Δδ| within each DEPT type), and each paired
-class's residual (observed − predicted) is filed under the environment codes of its carbon
-(``rank.predict.environment``, radius 0 to ``rank.predict.carbon.CARBON_RADIUS``).  A code seen on at
-least ``--min-compounds`` compounds keeps the mean of its per-compound residuals, shrunk towards its parent
-code's value by n / (n + ``--shrink``) (radius 0 towards zero).
-
-σ per family (``rules/carbon_sigma.tsv``): the root mean square residual of the paired classes on the fit
-part, the worst 1 % left out, without the correction (``sigma``) and with a correction fitted on the other
-half of the fit part (``sigma_environment``: two-fold cross-fitting, so the spread is not the in-sample one).
+1. Refit (``rules/carbon_refit.tsv``).  For every fit-part compound of ``benchmarks/data/open-spectra.tsv``
+   (derived from NMRShiftDB2; see its header) each carbon class's additive arithmetic is taken from the
+   tables alone (``rank.predict.carbon.additive_features``: the handbook shift and how often each
+   ``table:row:column`` value was used), the classes are paired with the observed 13C entries
+   (``predict_carbon_open.pair``: Hungarian algorithm on |Δδ| within each DEPT type), and a delta per
+   table value is found by ridge regression of observed − handbook shift on those counts (lambda
+   ``--ridge``, towards the handbook values; residuals beyond 5 ppm down-weighted; values used by fewer
+   than ``--min-classes`` paired classes keep their handbook value).  Pairing and regression are repeated
+   once with the refitted shifts.
+2. Environment corrections (``rules/carbon_environment.tsv``).  Each paired class's residual after the
+   refit is filed under the environment codes of its carbon (``rank.predict.environment``, radius 0 to
+   ``rank.predict.carbon.CARBON_RADIUS``).  A code seen on at least ``--min-compounds`` compounds keeps
+   the mean of its per-compound residuals, shrunk towards its parent code's value by n / (n + ``--shrink``)
+   (radius 0 towards zero); the predictor uses the largest-radius code it finds.
+3. σ per family (``rules/carbon_sigma.tsv``): the root mean square residual of the paired classes, the
+   worst 1 % left out, without (``sigma``) and with (``sigma_environment``) the correction, each half of
+   the fit part predicted by a refit and a correction fitted on the other half (two-fold cross-fitting,
+   so the spread is not the in-sample one).  ``--select`` compares settings by the same cross-fitting.
 
 Nothing of the held-out part is read.
-Usage: python benchmarks/fit_carbon.py [--write] [--min-compounds N] [--shrink S] [--select]
+Usage: python benchmarks/fit_carbon.py [--write] [--ridge L] [--min-classes N] [--min-compounds N]
+       [--shrink S] [--select]
 """
 
 from __future__ import annotations
@@ -191,9 +200,9 @@ SIGMA_HEADER = """# Uncertainty (one standard deviation, ppm) of a predicted 13C
 #   residual (observed − predicted, the worst 1 % left out) of the paired classes of the fit part
 #   ({compounds} compounds) of benchmarks/data/open-spectra.tsv, derived from NMRShiftDB2 (Steinbeck & Kuhn,
 #   Phytochemistry 2004, 65, 2711; Kuhn & Schloerer, Magn. Reson. Chem. 2015, 53, 582).
-#   sigma: the additive increments alone; sigma_environment: with the environment correction, fitted on the
-#   other half of the fit part (two-fold cross-fitting). Written by benchmarks/fit_carbon.py; the held-out
-#   part was never read.
+#   sigma: the refitted increments alone; sigma_environment: with the environment correction; each half of
+#   the fit part predicted by a refit and a correction fitted on the other half (two-fold cross-fitting).
+#   Written by benchmarks/fit_carbon.py; the held-out part was never read.
 family\tsigma\tsigma_environment\tnote
 """
 

@@ -94,7 +94,7 @@ class CarbonSignal:
     def explanation(self) -> str:
         """The arithmetic as text, e.g. ``base −2.30 + α C 9.10 + α OC(=O)R 51.00 = 57.80``."""
         first, *rest = self.terms
-        parts = [f"{first.name} {first.value:.2f}".replace("-", "−")]
+        parts = [f"{first.name} {'−' if first.value < 0 else ''}{abs(first.value):.2f}"]
         for t in rest:
             parts.append(f"{'+' if t.value >= 0 else '−'} {t.name} {abs(t.value):.2f}")
         return " ".join(parts) + f" = {self.shift:.2f}"
