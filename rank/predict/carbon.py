@@ -29,7 +29,7 @@ common solvents; the fitted corrections absorb the average).
 >>> [(s.dept, s.family) for s in predict_carbon_smiles("CCOC(C)=O")]
 [('C', 'carboxyl'), ('CH2', 'sp3'), ('CH3', 'sp3'), ('CH3', 'sp3')]
 >>> [t.name for t in predict_carbon_smiles("CCOC(C)=O")[1].terms]  # doctest: +ELLIPSIS
-['base', 'α C', 'α OC(=O)R', 'CH2 carbon', 'environment correction (... compounds, sd ...)']
+['base', 'α C', 'α OC(=O)R', 'CH2 carbon', 'environment correction (...)']
 
 References are given in the header of each table.
 """
@@ -604,7 +604,8 @@ class CarbonPredictor:
                     corrected = True
                     value = round(found.mean, 2)
                     if value:
-                        terms = (*terms, Term(f"environment correction ({found.compounds} compounds, "
+                        plural = "" if found.compounds == 1 else "s"
+                        terms = (*terms, Term(f"environment correction ({found.compounds} compound{plural}, "
                                               f"sd {found.sd:.1f})", value))
                         rows.append(f"{ENVIRONMENT_TABLE}:{found.code}")
             shift = round(sum(t.value for t in terms), 2)
