@@ -219,4 +219,4 @@ def test_held_out_subset_accuracy():
         pairs, _ = pair(predictor.predict(Chem.MolFromSmiles(case.smiles)), case.observed)
         errors.extend(abs(s.shift - o) for s, o in pairs)
     assert len(cases) > 50
-    assert statistics.fmean(errors) < 3.5
+    assert statistics.fmean(errors) < 2.5   # 1.68 at the time of writing (77 compounds)
