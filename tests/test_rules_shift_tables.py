@@ -93,6 +93,7 @@ ALKYL_SITE = {
     "ring10": ("C1CCCCCCCCC1", "C1CCCCCCCCCC1"),
     "ring11": ("C1CCCCCCCCCC1", "C1CCCCCCCCCCC1"),
     "acetal": ("COCOC", "COCCOC"),
+    "attenuate_alpha_f2": ("CC(F)F", "CC(F)Cl"),
     "attenuate_alpha": ("OCc1ccccc1", "CCc1ccccc1"),
     "attenuate_beta": ("OCCO", "OCCC"),
     "rotamer_alpha": ("CN(C)C=O", "CNC=O"),
