@@ -464,6 +464,8 @@ def _aromatic(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
     ring_hetero = {r.fields["id"]: r for r in t.get("ring_hetero", [])}
     for j, a in enumerate(home):
         d = min(abs(j - index), n - abs(j - index))
+        if d >= len(columns):   # rings of eight or more atoms: no increment beyond para
+            continue
         column = columns[d]
         if d and len(home) == 6 and m.mol.GetAtomWithIdx(a).GetAtomicNum() != 6:
             hetero = _ring_heteroatom(m, a)
