@@ -9,6 +9,16 @@ remove only once built are measured on the compounds whose limited space is smal
 (``--build``, default 20,000 estimated structures): the share of built structures the limits keep.
 
 Usage: python benchmarks/constraints.py [--carbons 6-12] [--build 20000] [--sample N]
+
+Figures (2026-12-03, 361 held-out compounds of C6-C12, about 30 minutes on a shared core):
+
+| 13C list | factor: lower quartile / median / upper quartile | geometric mean | under the ceiling |
+| --- | --- | --- | --- |
+| with DEPT types | 25.8 / 156.4 / 1,320.1 | 188.8 | 145 -> 263 |
+| shifts only | 1.0 / 1.3 / 2.0 | 1.5 | 145 -> 155 |
+
+No true structure broke a limit.  Structures removed only once built are few where the space was
+small enough to build (median share kept 1.00 of 161 and 63 compounds).
 """
 
 from __future__ import annotations
