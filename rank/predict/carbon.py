@@ -620,14 +620,38 @@ class CarbonPredictor:
 
 
 def _carbon_classes(heavy: Chem.Mol) -> list[tuple[list[int], _Arithmetic, str]]:
-    """(atoms, arithmetic, family) per symmetry class of carbon of a molecule without explicit H."""
+    """(atoms, arithmetic, family) per symmetry class of carbon of a molecule without explicit H.
+
+    Topologically equivalent carbons on the two sides of an amide, thioamide, carbamate or urea
+    nitrogen are two classes: the C(=O)-N bond rotates slowly on the NMR time scale at room
+    temperature, so the groups cis and trans to O give separate lines (N,N-dimethylformamide 36.5
+    and 31.4 ppm, from memory; as ``rank.predict.perceive`` splits their H).
+    """
     m = _Molecule(heavy)
-    ranks = list(Chem.CanonicalRankAtoms(heavy, breakTies=False))
+    ranks = list(Chem.CanonicalRankAtoms(_mark_amide_sides(heavy), breakTies=False))
     classes: dict[int, list[int]] = defaultdict(list)
     for a in heavy.GetAtoms():
         if a.GetAtomicNum() == 6:
             classes[ranks[a.GetIdx()]].append(a.GetIdx())
     return [(atoms, *_arithmetic(m, atoms[0])) for atoms in classes.values()]
+
+
+def _mark_amide_sides(heavy: Chem.Mol) -> Chem.Mol:
+    """A copy in which one of the two equivalent groups on each amide-type N carries an isotope mark,
+    so that canonical ranks tell the sides apart (the same classes whichever group is marked)."""
+    ranks = list(Chem.CanonicalRankAtoms(heavy, breakTies=False))
+    marked = None
+    for n in heavy.GetAtoms():
+        if n.GetAtomicNum() != 7 or n.GetIsAromatic() or n.GetDegree() != 3 or n.GetTotalNumHs():
+            continue
+        acyl = [x.GetIdx() for x in n.GetNeighbors() if x.GetAtomicNum() == 6 and not x.GetIsAromatic()
+                and any(b.GetBondType() == Chem.BondType.DOUBLE and b.GetOtherAtom(x).GetAtomicNum() in (8, 16)
+                        for b in x.GetBonds())]
+        rest = [x.GetIdx() for x in n.GetNeighbors() if x.GetIdx() not in acyl]
+        if acyl and len(rest) == 2 and ranks[rest[0]] == ranks[rest[1]]:
+            marked = marked or Chem.RWMol(heavy)
+            marked.GetAtomWithIdx(rest[0]).SetIsotope(1)
+    return heavy if marked is None else marked
 
 
 class AdditiveFeatures(NamedTuple):
