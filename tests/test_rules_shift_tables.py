@@ -160,6 +160,7 @@ BENZENE = {
     "aldehyde": ("O=Cc1ccccc1", "CC(=O)c1ccccc1"),
     "acid": ("OC(=O)c1ccccc1", "COC(=O)c1ccccc1"),
     "ester": ("COC(=O)c1ccccc1", "OC(=O)c1ccccc1"),
+    "amide_tertiary": ("CN(C)C(=O)c1ccccc1", "CNC(=O)c1ccccc1"),
     "amide": ("NC(=O)c1ccccc1", "OC(=O)c1ccccc1"),
     "acyl_chloride": ("ClC(=O)c1ccccc1", "CC(=O)c1ccccc1"),
     "ketone_aryl": ("O=C(c1ccccc1)c1ccccc1", "CC(=O)c1ccccc1"),
