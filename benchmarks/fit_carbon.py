@@ -15,8 +15,8 @@ open data set.
    ``rank.predict.carbon.CARBON_RADIUS``).  A code seen on at least ``--min-compounds`` compounds keeps
    the mean of its per-compound residuals, shrunk towards its parent code's value by n / (n + ``--shrink``)
    (radius 0 towards zero); the predictor uses the largest-radius code it finds.
-3. σ per family (``rules/carbon_sigma.tsv``): the root mean square residual of the paired classes, the
-   worst 1 % left out, without (``sigma``) and with (``sigma_environment``) the correction, each half of
+3. σ per family (``rules/carbon_sigma.tsv``): a robust spread (1.4826 × median |residual|) of the paired
+   classes, without (``sigma``) and with (``sigma_environment``) the correction, each half of
    the fit part predicted by a refit and a correction fitted on the other half (two-fold cross-fitting,
    so the spread is not the in-sample one).  ``--select`` compares settings by the same cross-fitting.
 
@@ -28,7 +28,6 @@ Usage: python benchmarks/fit_carbon.py [--write] [--ridge L] [--min-classes N] [
 from __future__ import annotations
 
 import argparse
-import math
 import statistics
 import sys
 from collections import defaultdict
@@ -174,10 +173,13 @@ def cross_fitted(data, ridge: float, min_classes: int, min_compounds: int, shrin
 
 
 def spread(values: list[float]) -> float:
-    """Root mean square with the largest 1 % of |values| left out."""
-    v = sorted(abs(x) for x in values)
-    kept = v[: max(1, math.ceil(0.99 * len(v)))]
-    return math.sqrt(statistics.fmean(x * x for x in kept))
+    """A robust σ: 1.4826 × the median |residual| (the σ of a normal distribution with that median).
+
+    13C residuals are heavy-tailed: a root mean square lets the few gross misses (misassigned rows,
+    uncovered groups) set σ for every class, so that ordinary 1-2 ppm differences between isomers
+    weigh nothing; the misfit caps each class's squared z instead (``CarbonSettings.z_cap``).
+    """
+    return 1.4826 * statistics.median(abs(x) for x in values)
 
 
 def mae(values: list[tuple[str, float]]) -> float:
@@ -196,8 +198,8 @@ HEADER = """# Environment corrections of the 13C predictor, ppm: observed − ad
 code\tradius\tcompounds\tmean\tsd
 """
 
-SIGMA_HEADER = """# Uncertainty (one standard deviation, ppm) of a predicted 13C shift by family: root mean square
-#   residual (observed − predicted, the worst 1 % left out) of the paired classes of the fit part
+SIGMA_HEADER = """# Uncertainty (one standard deviation, ppm) of a predicted 13C shift by family: a robust spread,
+#   1.4826 × the median |observed − predicted|, of the paired classes of the fit part
 #   ({compounds} compounds) of benchmarks/data/open-spectra.tsv, derived from NMRShiftDB2 (Steinbeck & Kuhn,
 #   Phytochemistry 2004, 65, 2711; Kuhn & Schloerer, Magn. Reson. Chem. 2015, 53, 582).
 #   sigma: the refitted increments alone; sigma_environment: with the environment correction; each half of
