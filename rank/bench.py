@@ -130,9 +130,10 @@ def _supported(formula: str) -> bool:
 
 
 def select_cases(cases: list[Case], only: Sequence[str] = (), carbons: str | None = None,
-                 sample: int | None = None) -> list[Case]:
-    """The cases named in ``only`` (all when empty), with a carbon count in ``carbons`` ("LOW-HIGH"),
-    then the first ``sample`` of them in a fixed order (by the SHA-256 of the id)."""
+                 sample: int | None = None, heteroatoms: int | None = None) -> list[Case]:
+    """The cases named in ``only`` (all when empty), with a carbon count in ``carbons`` ("LOW-HIGH")
+    and at most ``heteroatoms`` atoms other than C and H, then the first ``sample`` of them in a fixed
+    order (by the SHA-256 of the id)."""
     chosen = [c for c in cases if not only or c.id in only]
     if carbons:
         m = re.fullmatch(r"(\d+)-(\d+)", carbons.strip())
@@ -140,6 +141,9 @@ def select_cases(cases: list[Case], only: Sequence[str] = (), carbons: str | Non
             raise InputError(f"--carbons {carbons!r}: give a range such as 2-8")
         low, high = int(m.group(1)), int(m.group(2))
         chosen = [c for c in chosen if low <= parse_formula(c.formula)["C"] <= high]
+    if heteroatoms is not None:
+        chosen = [c for c in chosen
+                  if sum(n for element, n in parse_formula(c.formula).counts if element not in "CH") <= heteroatoms]
     if sample is not None:
         chosen = sorted(chosen, key=lambda c: hashlib.sha256(c.id.encode()).hexdigest())[:sample]
     return chosen

@@ -181,6 +181,7 @@ def _add_bench(sub) -> None:
                      help="rank each compound among the structures of its formula in this grouped file "
                           "(formula<TAB>smiles|smiles|...) instead of generating isomers")
     ben.add_argument("--carbons", metavar="LOW-HIGH", help="only compounds with this many carbons, e.g. 2-8")
+    ben.add_argument("--heteroatoms", type=int, metavar="N", help="only compounds with at most N atoms besides C and H")
     ben.add_argument("--with-carbon", action="store_true",
                      help="score the file's 13C lists too (the open data's c13 column, a carbon column)")
     ben.add_argument("--sample", type=_positive_int, metavar="N",
@@ -194,7 +195,7 @@ def _run_bench(args: argparse.Namespace) -> int:
     from .shortlist import temperature
 
     workers = _workers(args)
-    cases = select_cases(read_cases(args.file, args.part), args.only, args.carbons, args.sample)
+    cases = select_cases(read_cases(args.file, args.part), args.only, args.carbons, args.sample, args.heteroatoms)
     library = read_library(args.library) if args.library else None
     if not cases:
         raise InputError("no case left to run; check --only, --part, --carbons and --sample")

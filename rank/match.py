@@ -58,9 +58,22 @@ if TYPE_CHECKING:
     from .predict import Signal
 
 __all__ = [
-    "DEFAULT_CARBON_SETTINGS", "DEFAULT_SETTINGS", "CarbonClass", "CarbonMatch", "CarbonParts", "CarbonSettings",
-    "BROAD_OBSERVED", "Match", "MisfitParts", "Pairing", "Settings", "coupling_penalty", "match", "match_carbons",
-    "multiplicity_penalty", "without_small_couplings",
+    "BROAD_OBSERVED",
+    "DEFAULT_CARBON_SETTINGS",
+    "DEFAULT_SETTINGS",
+    "CarbonClass",
+    "CarbonMatch",
+    "CarbonParts",
+    "CarbonSettings",
+    "Match",
+    "MisfitParts",
+    "Pairing",
+    "Settings",
+    "coupling_penalty",
+    "match",
+    "match_carbons",
+    "multiplicity_penalty",
+    "without_small_couplings",
 ]
 
 

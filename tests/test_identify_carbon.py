@@ -30,10 +30,10 @@ CASES = {
     "lidocaine": (
         "C14H22N2O",
         "CCN(CC)CC(=O)Nc1c(C)cccc1C",
-        "8.93 (br s, 1H), 7.10-7.02 (m, 3H), 3.22 (s, 2H), 2.69 (q, J = 7.1 Hz, 4H), 2.23 (s, 6H), "
-        "1.13 (t, J = 7.1 Hz, 6H)",
-        "170.2 (C), 135.0 (C), 133.9 (C), 128.2 (CH), 127.0 (CH), 57.6 (CH2), 48.9 (CH2), 18.6 (CH3), "
-        "12.7 (CH3)",
+        ("8.93 (br s, 1H), 7.10-7.02 (m, 3H), 3.22 (s, 2H), 2.69 (q, J = 7.1 Hz, 4H), 2.23 (s, 6H), "
+        "1.13 (t, J = 7.1 Hz, 6H)"),
+        ("170.2 (C), 135.0 (C), 133.9 (C), 128.2 (CH), 127.0 (CH), 57.6 (CH2), 48.9 (CH2), 18.6 (CH3), "
+        "12.7 (CH3)"),
         ["CCN(CC)CC(=O)Nc1ccc(C)cc1C",          # 2,4-dimethyl isomer
          "CCN(CC)CC(=O)Nc1cc(C)ccc1C",          # 2,5-dimethyl isomer
          "CCCN(C)CC(=O)Nc1c(C)cccc1C",          # N-methyl-N-propyl isomer
@@ -43,8 +43,8 @@ CASES = {
         "C12H17NO",
         "CCN(CC)C(=O)c1cccc(C)c1",
         "7.25-7.13 (m, 4H), 3.53 (br s, 2H), 3.25 (br s, 2H), 2.36 (s, 3H), 1.24 (br s, 3H), 1.10 (br s, 3H)",
-        "171.4 (C), 138.2 (C), 137.2 (C), 129.7 (CH), 128.2 (CH), 126.9 (CH), 123.1 (CH), 43.3 (CH2), "
-        "39.2 (CH2), 21.4 (CH3), 14.2 (CH3), 12.9 (CH3)",
+        ("171.4 (C), 138.2 (C), 137.2 (C), 129.7 (CH), 128.2 (CH), 126.9 (CH), 123.1 (CH), 43.3 (CH2), "
+        "39.2 (CH2), 21.4 (CH3), 14.2 (CH3), 12.9 (CH3)"),
         ["CCN(CC)C(=O)c1ccc(C)cc1",             # para isomer
          "CCN(CC)C(=O)c1ccccc1C",               # ortho isomer
          "CCCN(C)C(=O)c1cccc(C)c1",             # N-methyl-N-propyl isomer
