@@ -382,7 +382,7 @@ def _run_isomers(args: argparse.Namespace) -> int:
 
 
 def _add_predict(sub) -> None:
-    pre = sub.add_parser("predict", help="predict the 1H NMR signals of a structure, with their arithmetic")
+    pre = sub.add_parser("predict", help="predict the 1H and 13C NMR signals of a structure, with their arithmetic")
     pre.add_argument("smiles", metavar="SMILES", help="the structure, e.g. 'CCOC(C)=O' (quote it in the shell)")
     pre.add_argument("--solvent", metavar="NAME", help="NMR solvent (default CDCl3)")
     pre.add_argument("--field", type=float, metavar="MHZ",
@@ -397,7 +397,7 @@ def _run_predict(args: argparse.Namespace) -> int:
 
     from rdkit import Chem
 
-    from .predict import Predictor, parse_smiles, signal_table
+    from .predict import CarbonPredictor, Predictor, carbon_table, parse_smiles, signal_table
     from .report import write_whole_file
     from .spectra import DEFAULT_FIELD_MHZ, DEFAULT_SOLVENT
 
@@ -410,8 +410,9 @@ def _run_predict(args: argparse.Namespace) -> int:
     # a salt or an ion is replaced by another molecule, whose atoms follow its canonical SMILES
     smiles = args.smiles if used == Chem.CanonSmiles(args.smiles) else used
     signals = predictor.predict(mol)
+    carbons = CarbonPredictor(predictor.solvent_id).predict(mol)
     doc = {"smiles": smiles, "solvent": predictor.solvent_id, "field_mhz": args.field,
-           "signals": [s.to_json() for s in signals]}
+           "signals": [s.to_json() for s in signals], "carbon_signals": [s.to_json() for s in carbons]}
     if notes:
         doc.update({"input": args.smiles, "note": " ".join(notes)})
     text = json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
@@ -424,6 +425,8 @@ def _run_predict(args: argparse.Namespace) -> int:
         return 0
     print(f"{smiles}  ({predictor.solvent_id}, {args.field:g} MHz)")
     sys.stdout.write(signal_table(signals))
+    print()
+    sys.stdout.write(carbon_table(carbons))
     return 0
 
 

@@ -12,8 +12,8 @@ of carbon, with its DEPT type.
 ['C', 'CH2', 'CH3', 'CH3']
 """
 
-from .carbon import CarbonPredictor, CarbonSignal, predict_carbon_smiles
+from .carbon import CarbonPredictor, CarbonSignal, carbon_table, predict_carbon_smiles
 from .proton import Coupling, Predictor, Signal, Term, parse_smiles, predict_smiles, signal_table
 
-__all__ = ["CarbonPredictor", "CarbonSignal", "Coupling", "Predictor", "Signal", "Term", "parse_smiles",
-           "predict_carbon_smiles", "predict_smiles", "signal_table"]
+__all__ = ["CarbonPredictor", "CarbonSignal", "Coupling", "Predictor", "Signal", "Term", "carbon_table",
+           "parse_smiles", "predict_carbon_smiles", "predict_smiles", "signal_table"]

@@ -50,7 +50,7 @@ from .environment import environment_codes, find_correction
 from .shifts import Term
 
 __all__ = ["CARBON_FAMILIES", "CARBON_RADIUS", "AdditiveFeatures", "CarbonPredictor", "CarbonSignal",
-           "additive_features", "predict_carbon_smiles"]
+           "additive_features", "carbon_table", "predict_carbon_smiles"]
 
 CARBON_FAMILIES = ("carbonyl", "carboxyl", "nitrile", "aromatic", "heteroaromatic", "alkene", "alkyne", "sp3")
 CARBON_RADIUS = 4
@@ -617,6 +617,14 @@ class CarbonPredictor:
                                         terms=terms, family=family, rows=tuple(rows)))
         signals.sort(key=lambda s: (-s.shift, s.atoms[0]))
         return signals
+
+
+def carbon_table(signals: list[CarbonSignal]) -> str:
+    """The 13C signals as a text table: shift, type, carbons, family, σ and the arithmetic."""
+    lines = [f"{'δC/ppm':>7}  {'type':<4}  {'nC':>3}  {'family':<14}  {'σ':>4}  arithmetic"]
+    for s in signals:
+        lines.append(f"{s.shift:7.1f}  {s.dept:<4}  {len(s.atoms):>3}  {s.family:<14}  {s.sigma:4.1f}  {s.explanation}")
+    return "\n".join(lines) + "\n"
 
 
 def _carbon_classes(heavy: Chem.Mol) -> list[tuple[list[int], _Arithmetic, str]]:
