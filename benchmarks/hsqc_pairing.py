@@ -27,7 +27,10 @@ one-bond 13C-1H pairs ``shiftC/shiftH (nH)`` (column ``hsqc``) and the 13C list 
 4. Each H-bearing carbon atom then carries its observed H shift(s), one per H.
 
 Run as a script for the coverage on one part: ``python benchmarks/hsqc_pairing.py [--part held-out|fit]
-[--margin PPM]``.  The other benchmark scripts import :func:`read_hsqc` and :func:`pair`.
+[--margin PPM]``; ``--simulate SCALE`` instead estimates how often a pairing called unambiguous is wrong:
+the best assignment is taken as the truth, the prediction replaced by the assigned δC minus Gaussian noise
+of SCALE × the predicted class's σ, and the pairing redone.  The other benchmark scripts import
+:func:`read_hsqc`, :func:`pair` and :func:`pair_cases`.
 """
 
 from __future__ import annotations
@@ -35,11 +38,14 @@ from __future__ import annotations
 import argparse
 import csv
 import math
+import random
 import re
+import statistics
 import sys
 from collections import Counter, defaultdict
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
+from types import SimpleNamespace
 
 import numpy as np
 from rdkit import Chem
@@ -97,6 +103,8 @@ class Pairing:
     cost: float = math.nan
     gap: float = math.nan
     firm: frozenset[int] = frozenset()
+    carbon: dict[int, float] = field(default_factory=dict)
+    """heavy-atom index -> the observed δC its carbon was given."""
 
 
 def read_hsqc(path: str | Path = DATA, part: str = "all") -> dict[str, dict[str, str]]:
@@ -198,6 +206,7 @@ def pair(mol: Chem.Mol, hsqc: str, c13: str, predictor: CarbonPredictor, margin:
         return Pairing("inconsistent", str(err))
     classes = [s for s in predictor.predict(mol) if s.n_h]
     observed: dict[int, tuple[float, ...]] = {}
+    carbon: dict[int, float] = {}
     total, gaps, split = 0.0, {}, set()
     for k in sorted({p.k for p in found} | {s.n_h for s in classes}):
         mine = [n for n, p in enumerate(found) if p.k == k]
@@ -214,6 +223,7 @@ def pair(mol: Chem.Mol, hsqc: str, c13: str, predictor: CarbonPredictor, margin:
         for r, c in enumerate(cols):
             (p, n), (cls, a) = obs[r], pred[c]
             observed[classes[cls].atoms[a]] = found[p].carbon_h(n)
+            carbon[classes[cls].atoms[a]] = found[p].shift
             went[p].add(cls)
         split |= {p for p, cls in went.items() if len(cls) > 1 and len(set(found[p].h)) > 1}
     # a class is firm when every assignment within the margin gives it the same carbons, with known H
@@ -221,12 +231,13 @@ def pair(mol: Chem.Mol, hsqc: str, c13: str, predictor: CarbonPredictor, margin:
     firm = frozenset(a for n, s in enumerate(classes) if n not in loose for a in s.atoms)
     gap = min(gaps.values(), default=math.inf)
     if gap <= margin:
-        return Pairing("ambiguous", f"second-best assignment {gap:.2f} ppm above the best", observed, total, gap, firm)
+        return Pairing("ambiguous", f"second-best assignment {gap:.2f} ppm above the best", observed, total, gap, firm,
+                       carbon)
     if split:
         shifts = ", ".join(str(found[p].shift) for p in sorted(split))
         return Pairing("ambiguous", f"δC {shifts}: carbons in several classes with several H shifts", observed,
-                       total, gap, firm)
-    return Pairing("paired", "", observed, total, gap, firm)
+                       total, gap, firm, carbon)
+    return Pairing("paired", "", observed, total, gap, firm, carbon)
 
 
 def pair_cases(cases, margin: float = MARGIN, path: str | Path = DATA) -> dict[str, Pairing]:
@@ -245,13 +256,50 @@ def pair_cases(cases, margin: float = MARGIN, path: str | Path = DATA) -> dict[s
     return found
 
 
+def simulate(cases, margin: float, scale: float, seed: int = 1) -> tuple[int, int, int, int]:
+    """How often a pairing called unambiguous is wrong, when the best assignment is taken as the truth and the
+    13C prediction is replaced by the assigned δC minus Gaussian noise of ``scale`` × each class's σ.
+
+    Returns (compounds paired, of them with some class given other H, H put on a wrong carbon, H paired)."""
+    rng = random.Random(seed)
+    rows, carbon = read_hsqc(DATA), CarbonPredictor()
+    paired = wrong_compounds = wrong_h = total_h = 0
+    for case in cases:
+        row, mol = rows[case.id], Chem.MolFromSmiles(case.smiles)
+        truth = pair(mol, row["hsqc"], row["c13"], carbon, margin)
+        if truth.status not in ("paired", "ambiguous"):
+            continue
+        classes = [s for s in carbon.predict(mol) if s.n_h]
+        noisy = [replace(s, shift=statistics.fmean(truth.carbon[a] for a in s.atoms) - rng.gauss(0.0, scale * s.sigma))
+                 for s in classes]
+        found = pair(mol, row["hsqc"], row["c13"], SimpleNamespace(predict=lambda _, noisy=noisy: noisy), margin)
+        if found.status != "paired":
+            continue
+        paired += 1
+        bad = [sum(len(truth.observed[a]) for a in s.atoms) for s in classes
+               if sorted(h for a in s.atoms for h in found.observed[a])
+               != sorted(h for a in s.atoms for h in truth.observed[a])]
+        wrong_compounds += bool(bad)
+        wrong_h += sum(bad)
+        total_h += sum(len(h) for h in found.observed.values())
+    return paired, wrong_compounds, wrong_h, total_h
+
+
 def main(argv: list[str]) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--part", choices=("held-out", "fit"), default="held-out")
     parser.add_argument("--margin", type=float, default=MARGIN, help="ppm between the best and second-best assignment")
     parser.add_argument("--show", type=int, default=0, help="print this many rows of each status but paired")
+    parser.add_argument("--simulate", type=float, default=0.0, metavar="SCALE",
+                        help="only estimate how often an unambiguous pairing is wrong, with 13C errors of SCALE × σ")
     args = parser.parse_args(argv)
     cases = read_cases(str(DATA), args.part)
+    if args.simulate:
+        paired, wrong, wrong_h, total_h = simulate(cases, args.margin, args.simulate)
+        print(f"{args.part} part, margin {args.margin} ppm, simulated 13C errors {args.simulate} × σ: "
+              f"{paired} compounds paired, {wrong} ({100 * wrong / paired:.1f} %) with a wrong class; "
+              f"{wrong_h} of {total_h} H ({100 * wrong_h / total_h:.1f} %) on a wrong carbon")
+        return 0
     outcomes = pair_cases(cases, args.margin)
     smiles = {case.id: case.smiles for case in cases}
     counts = Counter(o.status for o in outcomes.values())

@@ -13,7 +13,7 @@ from rdkit import Chem
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "benchmarks"))
 
-from hsqc_pairing import Peak, pair, pair_cases, peaks, read_hsqc
+from hsqc_pairing import Peak, pair, pair_cases, peaks, read_hsqc, simulate
 from predict_open import hsqc_h, predictor_for, predictors
 
 from rank.bench import read_cases
@@ -88,8 +88,17 @@ def test_pyridine_ring_h_and_diastereotopic_ch2(rows):
 
 def test_ambiguous_and_unusable_rows_are_reported(rows):
     # 4-benzylpiperidine: the aromatic CH lie within 1 ppm of each other and of their predictions
-    _, found = paired(rows, "ABGXADJDTPFFSZ-UHFFFAOYSA-N")
+    mol, found = paired(rows, "ABGXADJDTPFFSZ-UHFFFAOYSA-N")
     assert found.status == "ambiguous" and found.gap <= 2.0 and found.observed
+    # ... while its CH2 classes cannot change within the margin: they stay firm, with their H
+    ch2 = {m[0] for m in mol.GetSubstructMatches(Chem.MolFromSmarts("[CH2]"))}
+    ortho_meta = {m[0] for m in mol.GetSubstructMatches(Chem.MolFromSmarts("[cH]"))}
+    ortho_meta -= {m[0] for m in mol.GetSubstructMatches(Chem.MolFromSmarts("[cH]1[cH][cH]c(C)[cH][cH]1"))}
+    assert len(ortho_meta) == 4
+    assert ch2 <= found.firm and not ortho_meta & found.firm
+    assert on(mol, found, "[cH]1[cH][cH]c(C)[cH][cH]1") == [(7.18,)]   # para: firm, 125.7 against 126 predicted
+    assert on(mol, found, "[CH2]c") == [(2.52, 2.52)]
+    assert on(mol, found, "[CH2]N") == [(2.51, 3.02)] * 2   # axial and equatorial H of each NCH2
     # a pyrene: carbons that coincide in δC carry different H and go to different classes
     _, found = paired(rows, "AAJQTWWVKREOQP-UHFFFAOYSA-N")
     assert found.status == "ambiguous"
@@ -121,3 +130,10 @@ def test_terminal_methylene_h_pair_within_their_carbon():
     on_methylene = sorted(o for k, o in pairs if signals[k].atoms == (0,))
     assert on_methylene == [5.26, 5.36]
     assert len(pairs) == sum(s.n_h for s in signals)
+
+
+def test_simulation_finds_no_error_without_noise():
+    cases = [c for c in read_cases(str(DATA), "fit")
+             if c.id in ("CGCJBAIEQANINV-UHFFFAOYSA-N", "DQULIMIQTCDUAN-UHFFFAOYSA-N", "ABGXADJDTPFFSZ-UHFFFAOYSA-N")]
+    paired, wrong, wrong_h, total_h = simulate(cases, margin=2.0, scale=1e-6)
+    assert (paired, wrong, wrong_h) == (3, 0, 0) and total_h > 20
