@@ -28,6 +28,10 @@ PATTERNS = {r["id"]: Chem.MolFromSmarts(r["smarts"]) for r in ROWS}
 
 # row id -> (structures the row removes, near misses it keeps)
 EXAMPLES: dict[str, tuple[list[str], list[str]]] = {
+    "aromatic_ring_alkyne": (
+        ["c1cc#c[nH]1"],  # 2,3-didehydropyrrole (aryne-type)
+        ["N#Cc1ccco1"],  # 2-furonitrile: the triple bond is outside the ring
+    ),
     "small_ring_alkyne": (
         ["C1#CCCCC1"],  # cyclohexyne
         ["C#CC1CC1"],  # ethynylcyclopropane: the triple bond is outside the ring
