@@ -18,12 +18,12 @@ the fit-part compounds whose HSQC pairs go onto atoms unambiguously through the 
 (``benchmarks/hsqc_pairing.py``; ``--partial``: the ambiguous ones too, on their firm classes), each proton
 class with the observed shifts of its own carbons; in the cross-validation the pairing stays fixed after the
 correction (``--fit-sorted``: the corrections fitted on the sorted pairing of all compounds, measured so).
-5-fold CV, margin 2 ppm, ``--min-compounds 2 --shrink 1``: fitted and measured on the 1255 paired compounds
-(9817 H), MAE 0.157 → 0.159 (p95 0.57 → 0.58: no gain from half the compounds); with ``--partial`` (2255
-compounds, 17245 H) 0.169 → 0.165 (p95 0.62 → 0.61); fitted on the sorted pairing of all compounds and
-measured on the HSQC pairs (``--fit-sorted``), 0.157 → 0.152 and, with ``--partial``, 0.169 → 0.165.  The
-default 3/2 gives the same to 0.001.  Measured on exact pairs the gain is about half the sorted-pairing CV's
-(0.136 → 0.128 above), which re-pairs after the correction.
+5-fold CV, margin 2 ppm, ``--min-compounds 2 --shrink 1``: fitted and measured on the 1326 paired compounds
+(10780 H), MAE 0.153 → 0.154 (p95 0.55 → 0.57: no gain from half the compounds); with ``--partial`` (2255
+compounds, 18095 H) 0.165 → 0.161 (p95 0.61 → 0.59); fitted on the sorted pairing of all compounds and
+measured on the HSQC pairs (``--fit-sorted``), 0.153 → 0.148 and, with ``--partial``, 0.165 → 0.161 (p95
+0.61).  The default 3/2 gives the same to 0.001.  Measured on exact pairs the gain is about half the
+sorted-pairing CV's (0.136 → 0.128 above), which re-pairs after the correction.
 Nothing of the held-out part is read.
 Usage: python benchmarks/fit_environment.py [--pairing sorted|hsqc] [--margin PPM] [--partial] [--cv K] [--write]
 """

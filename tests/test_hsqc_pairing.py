@@ -118,6 +118,10 @@ def test_margin_on_a_stub_predictor():
     found = pair(mol, "24.8/1.0 (3H), 25.2/2.0 (3H), 25.0/1.5 (2H)",
                  "24.8 (CH3), 25.2 (CH3), 25.0 (CH2)", stub)
     assert found.status == "ambiguous" and found.gap < 2.0
+    # ... unless their H agree to 0.02 ppm: exchanging them moves no H, so that is not another assignment
+    found = pair(mol, "24.8/1.00 (3H), 25.2/1.01 (3H), 25.0/1.5 (2H)",
+                 "24.8 (CH3), 25.2 (CH3), 25.0 (CH2)", stub)
+    assert found.status == "paired" and found.firm == {0, 1, 2}
     assert pair(mol, "21.0/1.0 (3H), 25.0/1.5 (2H)", "21.0 (CH3), 25.0 (CH2)", stub).status == "unmatched"
 
 
