@@ -288,12 +288,13 @@ def _carbon_lines(c: Candidate, result: Shortlist) -> list[str]:
              f"lines {p.overlap:.3f} + unplaced {p.unplaced:.3f} + empty lines {p.empty:.3f}), each per carbon class")
     lines = [total,
              f"  {'obs δ':>6} {'type':<4} {'pred δ':>6} {'type':<4} {'nC':>3} {'z':>5}  arithmetic"]
-    for row in carbon_rows(c, result):
+    rows = carbon_rows(c, result)
+    for row in rows:
         obs_shift = "absent" if row["observed_shift"] is None else f"{row['observed_shift']:.1f}"
         z = "-" if row["z"] is None else f"{row['z']:.1f}"
         lines.append(f"  {obs_shift:>6} {row['observed_type'] or '-':<4} {row['predicted_shift']:6.1f} "
                      f"{row['type']:<4} {row['carbons']:>3} {z:>5}  {row['explanation']}")
-    placed = {row["line"] for row in carbon_rows(c, result)}
+    placed = {row["line"] for row in rows}
     for i, peak in enumerate(result.observation.carbons):
         if i not in placed:
             lines.append(f"  {peak.shift:6.1f} {peak.dept or '-':<4} {'':>6} {'':<4} {'':>3} {'':>5}  empty line")
