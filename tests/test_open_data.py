@@ -6,6 +6,7 @@ Phytochemistry 2004, 65, 2711; Kuhn & Schloerer, Magn. Reson. Chem. 2015, 53, 58
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import pytest
@@ -58,6 +59,15 @@ def test_selection_by_carbons_and_fixed_sample(every_case):
     assert select_cases(every_case, sample=5) == select_cases(list(reversed(every_case)), sample=5)
     with pytest.raises(InputError):
         select_cases(every_case, carbons="many")
+
+
+
+def test_selection_by_heteroatoms_and_every_case_carries_its_carbon_list(every_case):
+    plain = select_cases(every_case, heteroatoms=0)
+    assert plain and all(set(re.sub(r"[\d]", "", c.formula)) <= {"C", "H"} for c in plain)
+    assert all(c.carbon for c in every_case)  # the c13 column of every row
+    caffeine = next(c for c in every_case if c.id == "RYYVLZVUVIJVGH-UHFFFAOYSA-N")
+    assert caffeine.carbon.startswith("155.3 (C), 151.7 (C), 148.7 (C), 141.6 (CH)")
 
 
 # Filters that remove real compounds are wrong. bridgehead_alkene (Bredt's rule, approximated by
