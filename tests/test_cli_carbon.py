@@ -88,3 +88,17 @@ def test_predict_prints_and_writes_the_carbon_signals(capsys):
     # ethyl acetate in CDCl3: 171.1, 60.5, 21.0, 14.2 (from memory); within the predictor's sigma of each
     for s, observed in zip(doc["carbon_signals"], (171.1, 60.5, 21.0, 14.2)):
         assert abs(s["shift"] - observed) <= 2 * s["sigma"]
+
+
+def test_results_with_a_carbon_list_do_not_depend_on_the_number_of_workers():
+    from rank.shortlist import Identifier
+
+    # methyl butanoate in CDCl3: 1H 3.67 (s, 3H), 2.30 (t, 2H), 1.66 (sext, 2H), 0.95 (t, 3H); 13C 174.2, 51.5,
+    # 36.0, 18.5, 13.7 (typical literature values, from memory)
+    protons = "3.67 (s, 3H), 2.30 (t, J = 7.4 Hz, 2H), 1.66 (sext, J = 7.4 Hz, 2H), 0.95 (t, J = 7.4 Hz, 3H)"
+    carbons = "174.2, 51.5, 36.0, 18.5, 13.7"
+    runs = [Identifier(top=10, workers=n, use_hints=False).identify("C5H10O2", protons, carbon=carbons)
+            for n in (1, 2)]
+    assert [(c.smiles, c.misfit) for c in runs[0].candidates] == [(c.smiles, c.misfit) for c in runs[1].candidates]
+    assert runs[0].explored == runs[1].explored
+    assert runs[0].candidates[0].smiles == "CCCC(=O)OC"
