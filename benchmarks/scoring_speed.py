@@ -1,0 +1,151 @@
+"""Scoring throughput, and a fingerprint that shows a faster scoring gives the same results.
+
+A few C8-C10 compounds of the fit part of the open data (``benchmarks/data/open-spectra.tsv``) are
+observed from their own 1H lists, each once with 1H only and once with its 13C list too.  The first
+``--count`` isomers of each formula (``rank.generate.IsomerStream``, a fixed order) are generated
+first, outside the timing, then every candidate is scored by ``rank.shortlist.score`` in this process,
+one core.  Prints candidates per second per case and in all, with and without 13C.
+
+The fingerprint is every candidate's misfit as the ranking rounds it (6 decimals, ``None`` for a
+candidate the tables cannot predict) and the top 10 with ties, as the ranking keeps them.  ``--save FILE``
+writes it (JSON), ``--check FILE`` compares and exits 1 on any difference, naming the first ones.
+``--profile`` runs cProfile over the scoring and prints the heaviest entries, cumulative and own time.
+
+Profile of the scoring, before the speed-ups (4 cases x 2,000 candidates, 1H and 1H+13C; cProfile
+times, inflated by the profiler; own time by stage): 1H prediction 62 %, of which SMARTS table rows
+(``shifts``/``GetSubstructMatches``) the bulk, perception and multiplets the rest; 13C prediction 28 %;
+RDKit molecule building 3 %; assignment (``match``, Hungarian) 5 %.  See the report of issue 13 for
+the table.
+
+Usage: python benchmarks/scoring_speed.py [--count N] [--cases ID,...] [--save FILE] [--check FILE]
+       [--profile] [--only 1h|13c]
+"""
+
+from __future__ import annotations
+
+import argparse
+import cProfile
+import itertools
+import json
+import pstats
+import sys
+import time
+from pathlib import Path
+
+from rank.bench import read_cases
+from rank.formula import parse_formula
+from rank.generate import IsomerStream
+from rank.shortlist import _Best, observe, score
+from rank.spectra import read_carbon_peaks, read_peaks
+
+DATA = Path(__file__).resolve().parent / "data" / "open-spectra.tsv"
+CASES = (
+    "WMPDAIZRQDCGFH-UHFFFAOYSA-N",  # C8H8O2, 3-methoxybenzaldehyde
+    "WSWPCNMLEVZGSM-UHFFFAOYSA-N",  # C9H13NO, 2-(2-methoxyphenyl)ethylamine
+    "XMGQYMWWDOXHJM-JTQLQIEISA-N",  # C10H16, limonene
+    "SNICXCGAKADSCV-UHFFFAOYSA-N",  # C10H14N2, nicotine
+)
+TOP = 10
+
+
+def candidates(formula: str, count: int) -> list[str]:
+    """The first ``count`` isomers of the formula, in the generator's fixed order."""
+    stream = IsomerStream(parse_formula(formula), ceiling=0)
+    return [iso.smiles for iso in itertools.islice(iter(stream), count)]
+
+
+def run(jobs, profiler: cProfile.Profile | None) -> tuple[dict, dict[str, tuple[int, float]]]:
+    """Score every job's candidates; the fingerprint and (candidates, seconds) per mode."""
+    fingerprint, times = {}, {"1h": (0, 0.0), "13c": (0, 0.0)}
+    for key, mode, observation, smiles in jobs:
+        if profiler is not None:
+            profiler.enable()
+        start = time.perf_counter()
+        results = [score(s, observation) for s in smiles]
+        seconds = time.perf_counter() - start
+        if profiler is not None:
+            profiler.disable()
+        best = _Best(TOP)
+        for r in results:
+            if r is not None:
+                best.add(r)
+        fingerprint[key] = {
+            "misfits": [None if r is None else r.misfit for r in results],
+            "top": [[s.smiles, s.misfit] for s in best.items()],
+        }
+        n, t = times[mode]
+        times[mode] = (n + len(smiles), t + seconds)
+        print(f"{key:<40} {len(smiles):>6} candidates {seconds:7.2f} s {len(smiles) / seconds:8.0f} /s",
+              flush=True)
+    return fingerprint, times
+
+
+def compare(found: dict, saved: dict) -> list[str]:
+    """The differences between two fingerprints, as lines."""
+    lines = []
+    for key in sorted(set(found) | set(saved)):
+        if key not in found or key not in saved:
+            lines.append(f"{key}: only in {'the saved' if key in saved else 'this'} run")
+            continue
+        a, b = found[key], saved[key]
+        if len(a["misfits"]) != len(b["misfits"]):
+            lines.append(f"{key}: {len(a['misfits'])} candidates, saved {len(b['misfits'])}")
+        wrong = [i for i, (x, y) in enumerate(zip(a["misfits"], b["misfits"])) if x != y]
+        if wrong:
+            i = wrong[0]
+            lines.append(f"{key}: {len(wrong)} misfits differ, first candidate {i}: {a['misfits'][i]} "
+                         f"against {b['misfits'][i]}")
+        if a["top"] != b["top"]:
+            lines.append(f"{key}: top {TOP} differs: {a['top'][:3]} ... against {b['top'][:3]} ...")
+    return lines
+
+
+def main(argv: list[str]) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    parser.add_argument("--count", type=int, default=2000, help="candidates per formula (default 2000)")
+    parser.add_argument("--cases", default=",".join(CASES), help="open-data ids, comma-separated")
+    parser.add_argument("--only", choices=("1h", "13c"), help="score only with 1H, or only with 1H and 13C")
+    parser.add_argument("--save", help="write the fingerprint to this JSON file")
+    parser.add_argument("--check", help="compare with a fingerprint saved by --save; exit 1 on a difference")
+    parser.add_argument("--profile", action="store_true", help="print a cProfile summary of the scoring")
+    parser.add_argument("--top", type=int, default=30, help="profile entries to print (default 30)")
+    args = parser.parse_args(argv)
+
+    wanted = args.cases.split(",")
+    by_id = {c.id: c for c in read_cases(str(DATA), "all")}
+    jobs = []
+    for case_id in wanted:
+        case = by_id[case_id]
+        formula = parse_formula(case.formula)
+        smiles = candidates(case.formula, args.count)
+        spectrum = read_peaks(case.peaks)
+        for mode in ("1h", "13c"):
+            if args.only and mode != args.only:
+                continue
+            carbon = read_carbon_peaks(case.carbon) if mode == "13c" else None
+            observation, _ = observe(formula, spectrum, case.solvent, carbon=carbon)
+            jobs.append((f"{case.formula} {mode} {case_id[:14]}", mode, observation, smiles))
+
+    profiler = cProfile.Profile() if args.profile else None
+    fingerprint, times = run(jobs, profiler)
+    for mode, (n, t) in times.items():
+        if n:
+            print(f"{'all ' + mode:<40} {n:>6} candidates {t:7.2f} s {n / t:8.0f} /s")
+    if profiler is not None:
+        stats = pstats.Stats(profiler, stream=sys.stdout).strip_dirs()
+        stats.sort_stats("cumulative").print_stats(args.top)
+        stats.sort_stats("tottime").print_stats(args.top)
+    if args.save:
+        Path(args.save).write_text(json.dumps(fingerprint), encoding="utf-8")
+        print(f"fingerprint written to {args.save}")
+    if args.check:
+        differences = compare(fingerprint, json.loads(Path(args.check).read_text(encoding="utf-8")))
+        for line in differences:
+            print(line)
+        print(f"fingerprint {'differs from' if differences else 'identical to'} {args.check}")
+        return 1 if differences else 0
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv[1:]))
