@@ -46,7 +46,7 @@ from rdkit import Chem
 from ..errors import InputError
 from ..spectra import DEFAULT_SOLVENT, find_solvent
 from ..tables import read_table
-from .environment import environment_codes, find_correction
+from .environment import EnvironmentGraph, find_correction
 from .shifts import Term
 
 __all__ = ["CARBON_FAMILIES", "CARBON_RADIUS", "AdditiveFeatures", "CarbonPredictor", "CarbonSignal",
@@ -595,13 +595,14 @@ class CarbonPredictor:
         heavy, index = _heavy(mol)
         sigma = _tables().sigma
         signals = []
+        graph = EnvironmentGraph(heavy) if self.environment else None
         for atoms, arith, family in _carbon_classes(heavy):
             first = atoms[0]
             terms = arith.terms()
             rows = list(arith.rows)
             corrected = False
-            if self.environment:
-                found = find_correction(environment_codes(heavy, first, CARBON_RADIUS), ENVIRONMENT_TABLE)
+            if graph is not None:
+                found = find_correction(graph.codes(first, CARBON_RADIUS), ENVIRONMENT_TABLE)
                 if found is not None:
                     corrected = True
                     value = round(found.mean, 2)

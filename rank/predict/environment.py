@@ -26,7 +26,7 @@ from rdkit import Chem
 
 from ..tables import read_table
 
-__all__ = ["MAX_RADIUS", "Correction", "environment_codes", "find_correction"]
+__all__ = ["MAX_RADIUS", "Correction", "EnvironmentGraph", "environment_codes", "find_correction"]
 
 MAX_RADIUS = 3
 _BONDS = {Chem.BondType.SINGLE: "-", Chem.BondType.DOUBLE: "=", Chem.BondType.TRIPLE: "#",
@@ -63,23 +63,41 @@ def environment_codes(mol: Chem.Mol, atom: int, radius: int = MAX_RADIUS) -> tup
     -------
     tuple of str, one code per radius; a code extends the one before it.
     """
-    center = mol.GetAtomWithIdx(atom)
-    ring_size = min((len(r) for r in mol.GetRingInfo().AtomRings() if atom in r), default=0)
-    codes = [f"{_describe(center)}@{ring_size}" if ring_size else _describe(center)]
-    seen, frontier = {atom}, [atom]
-    for _ in range(radius):
-        sphere, reached = [], []
-        for a in frontier:
-            for bond in mol.GetAtomWithIdx(a).GetBonds():
-                other = bond.GetOtherAtomIdx(a)
-                if other in seen:
-                    continue
-                sphere.append(_BONDS.get(bond.GetBondType(), "~") + _describe(mol.GetAtomWithIdx(other)))
-                reached.append(other)
-        seen.update(reached)
-        frontier = sorted(set(reached))
-        codes.append(codes[-1] + "|" + ",".join(sorted(sphere)))
-    return tuple(codes)
+    return EnvironmentGraph(mol).codes(atom, radius)
+
+
+class EnvironmentGraph:
+    """One molecule's atoms described once, for the environment codes of many of its atoms.
+
+    ``EnvironmentGraph(mol).codes(atom, radius)`` equals ``environment_codes(mol, atom, radius)``;
+    the molecule must not change while the graph is in use.
+    """
+
+    def __init__(self, mol: Chem.Mol) -> None:
+        atoms = list(mol.GetAtoms())
+        self._described = [_describe(a) for a in atoms]
+        self._bonds = [[(b.GetOtherAtomIdx(a.GetIdx()), _BONDS.get(b.GetBondType(), "~")) for b in a.GetBonds()]
+                       for a in atoms]
+        self._rings = mol.GetRingInfo().AtomRings()
+
+    def codes(self, atom: int, radius: int = MAX_RADIUS) -> tuple[str, ...]:
+        """The codes of radius 0..``radius`` of one heavy atom, smallest first."""
+        described, bonds = self._described, self._bonds
+        ring_size = min((len(r) for r in self._rings if atom in r), default=0)
+        codes = [f"{described[atom]}@{ring_size}" if ring_size else described[atom]]
+        seen, frontier = {atom}, [atom]
+        for _ in range(radius):
+            sphere, reached = [], []
+            for a in frontier:
+                for other, bond in bonds[a]:
+                    if other in seen:
+                        continue
+                    sphere.append(bond + described[other])
+                    reached.append(other)
+            seen.update(reached)
+            frontier = sorted(set(reached))
+            codes.append(codes[-1] + "|" + ",".join(sorted(sphere)))
+        return tuple(codes)
 
 
 @cache
