@@ -200,17 +200,19 @@ class _Arithmetic:
     def add(self, name: str, row: _Row, column: str, times: float = 1.0, variant: str = "") -> None:
         """Add ``times`` the value of ``row`` in ``column``; ``variant`` (e.g. ``@5``, on a five-membered
         ring) gives the value its own refit delta."""
-        value = row.num(column)
+        entry = _ADDED.get((id(row), column, variant))
+        if entry is None or entry[0] is not row:
+            entry = _added(row, column, variant)
+            _ADDED[(id(row), column, variant)] = entry
+        _, value, feature, refitted, keys = entry
         if value is None:
             return
-        feature = f"{row.key}:{column}{variant}"
-        delta = _refit().get(feature, 0.0)
         self.handbook += value * times
         self.features[feature] += times
-        self.values[name] = self.values.get(name, 0.0) + (value + delta) * times
+        self.values[name] = self.values.get(name, 0.0) + refitted * times
         self.counts[name] += 1
-        for key in (row.key, f"carbon_refit:{feature}" if delta else None):
-            if key is not None and key not in self.rows:
+        for key in keys:
+            if key not in self.rows:
                 self.rows.append(key)
 
     def terms(self) -> tuple[Term, ...]:
@@ -220,6 +222,21 @@ class _Arithmetic:
             if value or k == 0:
                 out.append(Term(name if n == 1 else f"{name} ×{n}", round(value, 2)))
         return tuple(out)
+
+
+_ADDED: dict[tuple[int, str, str], tuple] = {}
+"""What :meth:`_Arithmetic.add` takes from a (row, column, variant), worked out once: the row itself (so
+that its id is never reused while cached), the table value, the feature, value plus refit delta, the row keys."""
+
+
+def _added(row: _Row, column: str, variant: str) -> tuple:
+    value = row.num(column)
+    if value is None:
+        return row, None, "", 0.0, ()
+    feature = f"{row.key}:{column}{variant}"
+    delta = _refit().get(feature, 0.0)
+    keys = (row.key, f"carbon_refit:{feature}") if delta else (row.key,)
+    return row, value, feature, value + delta, keys
 
 
 @cache
@@ -303,11 +320,20 @@ class _Molecule:
 # ------------------------------------------------------------ the rules ----
 
 
+@cache
+def _sp3_rows() -> tuple[dict[int, _Row], dict[str, _Row], dict[str, _Row], dict[int, _Row]]:
+    """The rows of ``carbon_sp3`` by key: position (by bonds), steric, hydrogens, ring (by size)."""
+    t = _tables().sp3
+    return ({int(r.fields["key"]): r for r in t["position"]}, {r.fields["key"]: r for r in t["steric"]},
+            {r.fields["key"]: r for r in t.get("hydrogens", [])},
+            {int(r.fields["key"].removeprefix("r")): r for r in t["ring"]})
+
+
 def _sp3(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
     t = _tables().sp3
     base = t["base"][0]
     arith = _Arithmetic("base", base, "value")
-    position = {int(r.fields["key"]): r for r in t["position"]}
+    position, steric, hydrogens, rings = _sp3_rows()
     dist = {atom: 0}
     frontier = [atom]
     for d in range(1, max(position) + 1):
@@ -321,7 +347,6 @@ def _sp3(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
             arith.add(position[d].label, position[d], "value")
         frontier = reached
     # steric corrections: sp3 carbon neighbours of the carbon and of each attached sp3 carbon
-    steric = {r.fields["key"]: r for r in t["steric"]}
 
     def degree(a: int) -> int:
         return min(4, max(1, sum(1 for n in m.heavy[a] if m.sp3c[n])))
@@ -351,14 +376,12 @@ def _sp3(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
             column = f"{column}_iso" if iso and row.num(f"{column}_iso") is not None else f"{column}_n"
         variant = f"@{_DEPT[min(3, n_h)]}" if d == 0 else ""
         arith.add(f"{'αβγ'[d]} {row.label}", row, column, variant=variant)
-    hydrogens = {r.fields["key"]: r for r in t.get("hydrogens", [])}
     row = hydrogens.get(f"h{n_h}")
     if row is not None:
         arith.add(row.label, row, "value")
     ring = m.smallest_ring((atom,))
     if ring >= 3:
-        rows = {int(r.fields["key"].removeprefix("r")): r for r in t["ring"]}
-        row = rows[min(ring, max(rows))]
+        row = rings[min(ring, max(rings))]
         arith.add(row.label, row, "value")
     hetero = sum(1 for n in m.heavy[atom] if m.mol.GetAtomWithIdx(n).GetAtomicNum() in _HETERO)
     if hetero >= 2:
