@@ -118,11 +118,13 @@ class CarbonSignal:
 
 
 class _Row(NamedTuple):
-    """A table row: its fields as text, its compiled SMARTS (None without one) and key ``table:id``."""
+    """A table row: its fields as text, its compiled SMARTS (None without one) and key ``table:id``;
+    ``elements`` the atomic numbers the SMARTS needs (a molecule without one of them cannot match it)."""
 
     fields: dict[str, str]
     query: Chem.Mol | None
     key: str
+    elements: frozenset[int] = frozenset()
 
     def num(self, column: str) -> float | None:
         text = self.fields.get(column, "")
@@ -140,7 +142,9 @@ def _rows(table: str, id_column: str = "id") -> list[_Row]:
         query = Chem.MolFromSmarts(smarts) if smarts else None
         if smarts and query is None:
             raise ValueError(f"rules/{table}.tsv: row {fields[id_column]!r}: SMARTS {smarts!r} does not parse")
-        rows.append(_Row(fields, query, f"{table}:{fields[id_column]}"))
+        elements = frozenset() if query is None else frozenset(
+            a.GetAtomicNum() for a in query.GetAtoms() if a.GetAtomicNum() > 1)
+        rows.append(_Row(fields, query, f"{table}:{fields[id_column]}", elements))
     return rows
 
 
@@ -255,6 +259,7 @@ class _Molecule:
         self.sp3c = [a.GetAtomicNum() == 6 and not a.GetIsAromatic()
                      and all(b.GetBondType() == Chem.BondType.SINGLE for b in a.GetBonds()) for a in atoms]
         self.rings = [tuple(r) for r in mol.GetRingInfo().AtomRings()]
+        self.elements = frozenset(a.GetAtomicNum() for a in atoms)
         self._classified: dict[str, dict[tuple[int, int], _Row]] = {}
 
     @cached_property
@@ -270,7 +275,7 @@ class _Molecule:
         if found is None:
             found = {}
             for r in rows:
-                if r.query is None:
+                if r.query is None or not r.elements <= self.elements:
                     continue
                 for match in self.mol.GetSubstructMatches(r.query, uniquify=False, maxMatches=_MAX_MATCHES):
                     found.setdefault((match[0], match[1]), r)
@@ -283,7 +288,7 @@ class _Molecule:
         if found is None:
             found = {}
             for r in rows:
-                if r.query is None:
+                if r.query is None or not r.elements <= self.elements:
                     continue
                 for match in self.mol.GetSubstructMatches(r.query, uniquify=False, maxMatches=_MAX_MATCHES):
                     found.setdefault((match[0], -1), r)
@@ -386,7 +391,8 @@ def _sp3(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
     hetero = sum(1 for n in m.heavy[atom] if m.mol.GetAtomWithIdx(n).GetAtomicNum() in _HETERO)
     if hetero >= 2:
         for row in t["site"]:
-            if row.query is not None and any(match[0] == atom for match in m.mol.GetSubstructMatches(row.query)):
+            if row.query is not None and row.elements <= m.elements \
+                    and any(match[0] == atom for match in m.mol.GetSubstructMatches(row.query)):
                 count = hetero - 1 if row.fields["key"] == "gem_hetero" else 1
                 arith.add(row.label, row, "value", count)
                 break
@@ -524,7 +530,8 @@ def _aromatic(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
             arith.add(crowd[0].label, crowd[0], "ipso", pairs)
     if len(home) == 6:
         for row in t.get("site", []):
-            if row.query is not None and any(match[0] == atom for match in m.mol.GetSubstructMatches(row.query)):
+            if row.query is not None and row.elements <= m.elements \
+                    and any(match[0] == atom for match in m.mol.GetSubstructMatches(row.query)):
                 arith.add(row.label, row, "ipso")
                 break
     return arith, family
