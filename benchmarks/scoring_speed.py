@@ -86,11 +86,11 @@ def run(jobs, profiler: cProfile.Profile | None, repeat: int = 1) -> tuple[dict,
 
 
 def compare(found: dict, saved: dict) -> list[str]:
-    """The differences between two fingerprints, as lines."""
+    """The differences between this run's fingerprint and a saved one (which may hold more cases), as lines."""
     lines = []
-    for key in sorted(set(found) | set(saved)):
-        if key not in found or key not in saved:
-            lines.append(f"{key}: only in {'the saved' if key in saved else 'this'} run")
+    for key in sorted(found):
+        if key not in saved:
+            lines.append(f"{key}: not in the saved fingerprint")
             continue
         a, b = found[key], saved[key]
         if len(a["misfits"]) != len(b["misfits"]):
