@@ -269,8 +269,9 @@ class _Molecule:
     def smallest_ring(self, atoms: tuple[int, ...]) -> int:
         return min((len(r) for r in self.rings if all(a in r for a in atoms)), default=0)
 
-    def classify(self, name: str, rows: list[_Row]) -> dict[tuple[int, int], _Row]:
-        """(atom 1, atom 2) of the first row matching each bond."""
+    def classify(self, name: str, rows: list[_Row], pairs: bool = True) -> dict[tuple[int, int], _Row]:
+        """(atom 1, atom 2) of the first row matching each bond; with ``pairs`` False, (atom 1, -1) of the
+        first row matching each atom."""
         found = self._classified.get(name)
         if found is None:
             found = {}
@@ -278,22 +279,13 @@ class _Molecule:
                 if r.query is None or not r.elements <= self.elements:
                     continue
                 for match in self.mol.GetSubstructMatches(r.query, uniquify=False, maxMatches=_MAX_MATCHES):
-                    found.setdefault((match[0], match[1]), r)
+                    found.setdefault((match[0], match[1] if pairs else -1), r)
             self._classified[name] = found
         return found
 
     def first_match(self, name: str, rows: list[_Row], atom: int) -> _Row | None:
         """The first row whose SMARTS matches with ``atom`` as its atom 1."""
-        found = self._classified.get(name)
-        if found is None:
-            found = {}
-            for r in rows:
-                if r.query is None or not r.elements <= self.elements:
-                    continue
-                for match in self.mol.GetSubstructMatches(r.query, uniquify=False, maxMatches=_MAX_MATCHES):
-                    found.setdefault((match[0], -1), r)
-            self._classified[name] = found
-        return found.get((atom, -1))
+        return self.classify(name, rows, pairs=False).get((atom, -1))
 
     def multiple_partner(self, atom: int) -> tuple[str, int | None]:
         """How the carbon is bonded: ("aromatic"|"functional"|"alkyne"|"alkene"|"sp3", partner)."""

@@ -163,15 +163,8 @@ def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height:
                      f'<line x1="{xt}" y1="{axis}" x2="{xt}" y2="{axis + 4}" stroke="#444"/>'
                      f'<text x="{xt}" y="{axis + 16}" text-anchor="middle">{tick}</text>')
         tick -= 1
-    parts.append(f'<line x1="{left}" y1="{mid}" x2="{right}" y2="{mid}" stroke="#444"/>'
-                 f'<line x1="{left}" y1="{axis}" x2="{right}" y2="{axis}" stroke="#444"/>'
-                 f'<text x="{right}" y="{height - 2}" text-anchor="end">δ / ppm</text>'
-                 f'<text x="{left - 6}" y="{mid - 6}" text-anchor="end">observed</text>'
-                 f'<text x="{left - 6}" y="{mid + 15}" text-anchor="end">predicted</text>')
-    for p in dropped:
-        parts.append(f'<line x1="{x(p.shift):.1f}" y1="{mid}" x2="{x(p.shift):.1f}" y2="{mid - scale:.1f}" '
-                     f'stroke="#999" stroke-width="2" stroke-dasharray="3 2">'
-                     f'<title>{escape(p.caption)}, dropped</title></line>')
+    parts.append(_baselines(left, right, mid, axis, height, "δ / ppm"))
+    parts.extend(_dropped_stick(x(p.shift), mid, scale, p.caption) for p in dropped)
     for i, p in enumerate(peaks):
         color = _color(owner[i]) if i in owner else "#999"
         h = observed[i] * scale
@@ -187,6 +180,21 @@ def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height:
                      f'{escape(s.multiplicity)}</title></line>')
     parts.append("</svg>")
     return "".join(parts)
+
+
+def _baselines(left: int, right: int, mid: int, axis: int, height: int, unit: str) -> str:
+    """The observed/predicted baseline, the ppm axis line and their labels of a stick spectrum."""
+    return (f'<line x1="{left}" y1="{mid}" x2="{right}" y2="{mid}" stroke="#444"/>'
+            f'<line x1="{left}" y1="{axis}" x2="{right}" y2="{axis}" stroke="#444"/>'
+            f'<text x="{right}" y="{height - 2}" text-anchor="end">{unit}</text>'
+            f'<text x="{left - 6}" y="{mid - 6}" text-anchor="end">observed</text>'
+            f'<text x="{left - 6}" y="{mid + 15}" text-anchor="end">predicted</text>')
+
+
+def _dropped_stick(at: float, mid: int, scale: float, caption: str) -> str:
+    """A grey dashed stick for a dropped peak (solvent, water, reference)."""
+    return (f'<line x1="{at:.1f}" y1="{mid}" x2="{at:.1f}" y2="{mid - scale:.1f}" stroke="#999" stroke-width="2" '
+            f'stroke-dasharray="3 2"><title>{escape(caption)}, dropped</title></line>')
 
 
 def carbon_stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height: int = 200) -> str:
@@ -220,15 +228,8 @@ def carbon_stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, 
         parts.append(f'<line x1="{xt}" y1="{top}" x2="{xt}" y2="{axis}" stroke="#eee"/>'
                      f'<line x1="{xt}" y1="{axis}" x2="{xt}" y2="{axis + 4}" stroke="#444"/>'
                      f'<text x="{xt}" y="{axis + 16}" text-anchor="middle">{tick}</text>')
-    parts.append(f'<line x1="{left}" y1="{mid}" x2="{right}" y2="{mid}" stroke="#444"/>'
-                 f'<line x1="{left}" y1="{axis}" x2="{right}" y2="{axis}" stroke="#444"/>'
-                 f'<text x="{right}" y="{height - 2}" text-anchor="end">δC / ppm</text>'
-                 f'<text x="{left - 6}" y="{mid - 6}" text-anchor="end">observed</text>'
-                 f'<text x="{left - 6}" y="{mid + 15}" text-anchor="end">predicted</text>')
-    for p in dropped:
-        parts.append(f'<line x1="{x(p.shift):.1f}" y1="{mid}" x2="{x(p.shift):.1f}" y2="{mid - scale:.1f}" '
-                     f'stroke="#999" stroke-width="2" stroke-dasharray="3 2">'
-                     f'<title>{escape(p.caption)}, dropped</title></line>')
+    parts.append(_baselines(left, right, mid, axis, height, "δC / ppm"))
+    parts.extend(_dropped_stick(x(p.shift), mid, scale, p.caption) for p in dropped)
     for i, p in enumerate(lines):
         color = _color(owner[i]) if i in owner else "#999"
         h = observed[i] * scale
