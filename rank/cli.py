@@ -412,7 +412,7 @@ def _run_predict(args: argparse.Namespace) -> int:
     signals = predictor.predict(mol)
     carbons = CarbonPredictor(predictor.solvent_id).predict(mol)
     doc = {"smiles": smiles, "solvent": predictor.solvent_id, "field_mhz": args.field,
-           "signals": [s.to_json() for s in signals], "carbon_signals": [s.to_json() for s in carbons]}
+           "signals": [s.to_json() for s in signals], "carbons": [s.to_json() for s in carbons]}
     if notes:
         doc.update({"input": args.smiles, "note": " ".join(notes)})
     text = json.dumps(doc, indent=2, ensure_ascii=False) + "\n"

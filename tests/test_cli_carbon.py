@@ -84,9 +84,9 @@ def test_predict_prints_and_writes_the_carbon_signals(capsys):
     assert "δC/ppm" in out
     code, out, err = run_cli(["predict", "CCOC(C)=O", "--json", "-"], capsys)
     doc = json.loads(out)
-    assert [s["dept"] for s in doc["carbon_signals"]] == ["C", "CH2", "CH3", "CH3"]
+    assert [s["dept"] for s in doc["carbons"]] == ["C", "CH2", "CH3", "CH3"]
     # ethyl acetate in CDCl3: 171.1, 60.5, 21.0, 14.2 (from memory); within the predictor's sigma of each
-    for s, observed in zip(doc["carbon_signals"], (171.1, 60.5, 21.0, 14.2)):
+    for s, observed in zip(doc["carbons"], (171.1, 60.5, 21.0, 14.2)):
         assert abs(s["shift"] - observed) <= 2 * s["sigma"]
 
 
