@@ -39,6 +39,7 @@ from .generate import (
     SpaceTooLarge,
     carbon_limits,
     compile_smarts,
+    proton_limits,
     read_hints,
 )
 from .match import (
@@ -265,6 +266,15 @@ def _observe_carbons(formula: Formula, carbon: CarbonSpectrum, solvent, keep_all
         raise InputError(f"the 13C list holds {written} carbons but {formula.hill} has {formula['C']}; "
                          "check the formula and the list (solvent lines are dropped by the solvent given)")
     return tuple(kept), tuple(dropped)
+
+
+def evidence_limits(formula: Formula, observation: Observation) -> tuple[Limit, ...]:
+    """The limits the observed 1H list (over every reading of its integrals) and the 13C list set on the
+    structures of the formula (``rank.generate.constraints``)."""
+    labile = exchangeable_bound(formula["N"], formula["O"], formula["S"], formula["H"])
+    readings = [(n.counts, n.missing) for n in observation.normalisations]
+    limits = proton_limits(formula, observation.peaks, readings, labile)
+    return limits + (carbon_limits(formula, observation.carbons) if observation.carbons else ())
 
 
 # ----------------------------------------------------------------- score ----
@@ -610,8 +620,8 @@ class Identifier:
         hints, limits = (), ()
         if self.use_hints:
             hints = tuple(read_hints(observation.peaks, observation.normalisations[0].counts, parsed))
-            if candidates is None and observation.carbons:
-                limits = carbon_limits(parsed, observation.carbons)
+            if candidates is None:
+                limits = evidence_limits(parsed, observation)
         result = Shortlist(parsed, observation, dropped, [], 0, False, hints, limits=limits)
         start = time.time()
         deadline = None if self.budget is None else start + self.budget

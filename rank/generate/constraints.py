@@ -31,6 +31,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass
 from functools import cache, cached_property
+from typing import NamedTuple
 
 from rdkit import Chem
 
@@ -39,7 +40,8 @@ from ..tables import read_table
 from .atoms import AtomType
 from .fragment import FragmentType
 
-__all__ = ["Kind", "Limit", "carbon_limits", "constraint_rules", "hint_limit", "limit_rows"]
+__all__ = ["Kind", "Limit", "carbon_limits", "constraint_rules", "hint_limit", "limit_rows", "proton_limits",
+           "proton_rules"]
 
 _TYPE_NAMES = {0: "C", 1: "CH", 2: "CH2", 3: "CH3"}
 _KIND_NAMES = {0: "quaternary C", 1: "CH", 2: "CH2", 3: "CH3"}
@@ -222,15 +224,22 @@ class _Row:
         self.tolerance = int(r["tolerance"]) if r["tolerance"] else 0
 
     def target(self) -> Kind:
-        hydrogens = self.n_h or None
-        return {
-            "dbl": Kind(hydrogens=hydrogens, double_bond=True),
-            "triple": Kind(hydrogens=hydrogens, triple_bond=True, smarts=_NOT_YNOL_BETA),
-            "carbonyl": Kind(hydrogens=hydrogens, smarts="[#6;$([#6]=[#8]);!$([#6](=*)=*)]"),
-            "c_x": Kind(hydrogens=hydrogens,
-                        smarts="[#6;$([#6]=[#7,#8,#16]),$([#6](=*)=*),$([#6](=[#6])-[#7,#8])]"),
-            "ox": Kind(hydrogens=hydrogens, smarts="[CX4;$(C[#7,#8])]"),
-        }[self.counts]
+        return _target(self.counts, self.n_h)
+
+
+def _target(counts: str, n_h: tuple[int, ...]) -> Kind:
+    """The kind a table row's ``counts`` and ``n_h`` cells name (see the headers of the constraint tables)."""
+    hydrogens = n_h or None
+    return {
+        "any": Kind(hydrogens=hydrogens),
+        "dbl": Kind(hydrogens=hydrogens, double_bond=True),
+        "triple": Kind(hydrogens=hydrogens, triple_bond=True, smarts=_NOT_YNOL_BETA),
+        "carbonyl": Kind(hydrogens=hydrogens, smarts="[#6;$([#6]=[#8]);!$([#6](=*)=*)]"),
+        "c_x": Kind(hydrogens=hydrogens, smarts="[#6;$([#6]=[#7,#8,#16]),$([#6](=*)=*),$([#6](=[#6])-[#7,#8])]"),
+        "ox": Kind(hydrogens=hydrogens, smarts="[CX4;$(C[#7,#8])]"),
+        "o_sp3": Kind(hydrogens=hydrogens, smarts="[CX4;$(C[#8]);!$(C[F,Cl,Br,I])]"),
+        "cho": Kind(hydrogens=hydrogens, smarts="[CX3H1](=O)[#6,#1]"),
+    }[counts]
 
 
 _TYPE_CODES = {"C": 0, "CH": 1, "CH2": 2, "CH3": 3}
@@ -389,3 +398,93 @@ def hint_limit(hint) -> Limit | None:
         return None
     kind = Kind(hydrogens=(hint.hydrogens,), double_bond=True if hint.double_bond else None)
     return Limit(hint.name, hint.evidence, kind, lower=hint.min_atoms, tolerance="a rule of thumb (rules/hints.tsv)")
+
+
+# ------------------------------------------------------------------- 1H ----
+
+
+class _ProtonRow(NamedTuple):
+    """One row of ``rules/proton_constraints.tsv``."""
+
+    id: str
+    name: str
+    kind: Kind
+    bound: str
+    low: float
+    high: float
+    h_per_atom: int
+    labile: bool
+    tolerance: int
+
+
+@cache
+def proton_rules() -> tuple[_ProtonRow, ...]:
+    """The rows of ``rules/proton_constraints.tsv``, in table order."""
+    return tuple(_ProtonRow(r["id"], r["name"], _target(r["counts"], tuple(int(x) for x in r["n_h"].split(",") if x)),
+                            r["bound"], float(r["low"]), float(r["high"]), int(r["h_per_atom"]), r["labile"] == "yes",
+                            int(r["tolerance"] or 0))
+                 for r in read_table("proton_constraints"))
+
+
+def proton_limits(formula: Formula, peaks: Sequence, readings: Sequence[tuple[Sequence[int], int]],
+                  labile: int) -> tuple[Limit, ...]:
+    """The limits a 1H peak list sets on the carbons of every structure of the formula.
+
+    Parameters
+    ----------
+    formula : Formula
+    peaks : sequence of peaks with ``.low`` and ``.high`` (ppm), as ``rank.spectra.Peak`` gives them;
+        solvent signals left out.
+    readings : sequence of (H count per peak, H not observed)
+        Every reading of the integrals the scoring tries (``rank.spectra.Normalisation`` ``counts``
+        and ``missing``); a bound holds for the loosest of them.
+    labile : int
+        The most exchangeable H (OH, NH, SH) the formula can hold (``rank.spectra.exchangeable_bound``).
+
+    Returns
+    -------
+    tuple of Limit
+        Only limits that bound something, per row of ``rules/proton_constraints.tsv``.
+    """
+    carbons = formula["C"]
+    limits = []
+    for row in proton_rules():
+        bounds = [_proton_bound(row, peaks, counts, missing, labile) for counts, missing in readings]
+        if not bounds:
+            continue
+        if row.bound == "upper":
+            bound = max(b for b, _ in bounds)
+            if bound >= carbons:
+                continue
+            limit = Limit(f"1H: {row.name}", max(bounds)[1], row.kind, upper=bound,
+                          tolerance=_proton_tolerance(row))
+        else:
+            bound = min(b for b, _ in bounds)
+            if bound <= 0:
+                continue
+            limit = Limit(f"1H: {row.name}", min(bounds)[1], row.kind, lower=bound, tolerance=_proton_tolerance(row))
+        limits.append(limit)
+    return tuple(limits)
+
+
+def _proton_bound(row: _ProtonRow, peaks: Sequence, counts: Sequence[int], missing: int,
+                  labile: int) -> tuple[int, str]:
+    """The bound of one row under one reading of the integrals, with its evidence."""
+    where = f"{row.low:g}-{row.high:g} ppm"
+    if row.bound == "upper":
+        h = sum(c for p, c in zip(peaks, counts) if p.high >= row.low and p.low <= row.high)
+        unseen = f", {missing} H not observed" if missing else ""
+        return (h + missing + row.tolerance) // row.h_per_atom, f"{h} H in {where}{unseen}"
+    h = sum(c for p, c in zip(peaks, counts) if p.low >= row.low and p.high <= row.high)
+    exchangeable = max(0, labile - missing) if row.labile else 0
+    return -(-(h - exchangeable - row.tolerance) // row.h_per_atom), \
+        f"{h} H in {where}" + (f", of which up to {exchangeable} may be OH/NH/SH" if exchangeable else "")
+
+
+def _proton_tolerance(row: _ProtonRow) -> str:
+    parts = ["the window's generous edges"]
+    if row.labile:
+        parts.append("exchangeable H")
+    if row.tolerance:
+        parts.append(f"{row.tolerance} H of another kind")
+    return "; ".join(parts)

@@ -113,6 +113,8 @@ class EnumeratorFactory:
             low, high = max(0, low - fixed), None if high is None else high - fixed
             if high is not None and high < 0:
                 high, low = 0, 1   # no structure: a group no vertex can fill
+            elif not members and low == 0:
+                continue           # the flags already settle it
             groups.append((members, low, -1 if high is None else high))
         return groups
 
@@ -198,7 +200,7 @@ class EnumeratorFactory:
         Math. Comp. 1975, 29, 121. doi:10.1090/S0025-5718-1975-0373371-6
         """
         found = self.build(types).estimate(probes, seed)
-        if found == 0 and self.double_limits:
+        if found == 0 and self.double_limits and self.double_groups(types):
             # a bound on double bonds often fails only deep in the tree, where every probe may die: more
             # probes, then the run without the bounds (an estimate from above, so a ceiling stays safe)
             found = self.build(types).estimate(4 * probes, seed)
