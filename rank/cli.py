@@ -234,12 +234,17 @@ def _add_identify(sub) -> None:
     ide = sub.add_parser("identify", help="rank the isomers of a formula against a 1H peak list (and a 13C list)")
     ide.add_argument("--formula", required=True, help="molecular formula of the unknown, e.g. C9H10O2")
     ide.add_argument("--peaks", required=True, metavar="PEAKS",
-                     help="a peak file (.csv, .tsv, .json, .jdx) or an inline list such as "
+                     help="a peak file (.csv, .tsv, .json, .jdx), a 1H spectrum (JCAMP-DX, Bruker folder) whose "
+                          "peaks are picked, or an inline list such as "
                           "'7.35-7.20 (m, 5H), 4.12 (q, J = 7.1 Hz, 2H), 2.05 (s, 3H)'")
     ide.add_argument("--carbon", metavar="PEAKS",
-                     help="the 13C list, a file or inline, with DEPT types when known, e.g. "
+                     help="the 13C list, a file, a 13C spectrum or inline, with DEPT types when known, e.g. "
                           "'170.9 (C), 60.4 (CH2), 21.0 (CH3), 14.2 (CH3)'")
-    ide.add_argument("--solvent", metavar="NAME", help="NMR solvent (default: the peak list's, else CDCl3)")
+    ide.add_argument("--dept135", metavar="FILE",
+                     help="a DEPT-135 spectrum (JCAMP-DX, Bruker folder) that types the lines picked from the "
+                          "--carbon spectrum: CH and CH3 up, CH2 down, quaternary absent")
+    ide.add_argument("--solvent", metavar="NAME",
+                     help="NMR solvent (default: the peak list's or spectrum file's, else CDCl3)")
     ide.add_argument("--field", type=float, metavar="MHZ",
                      help="spectrometer frequency (default: the peak list's, else 400)")
     ide.add_argument("--top", type=_positive_int, default=10, metavar="N",
@@ -280,12 +285,15 @@ def _run_identify(args: argparse.Namespace) -> int:
     identifier.check_options()
     outputs = _check_outputs(args, {"--json": ("json", "shortlist.json"), "--csv": ("csv", "shortlist.csv"),
                                     "--report": ("report", "report.html")})
-    carbon = None
-    if args.carbon is not None:
-        from .spectra import read_carbon_peaks
+    if args.dept135 is not None and args.carbon is None:
+        raise InputError("--dept135 types the lines of a 13C spectrum; give the 13C spectrum file with --carbon too")
+    from .spectra import read_peak_source
 
-        carbon = read_carbon_peaks(args.carbon)
-    result = identifier.identify(args.formula, args.peaks, args.candidates, carbon)
+    peaks = read_peak_source(args.peaks, "1H", args.solvent)
+    carbon = None if args.carbon is None else read_peak_source(args.carbon, "13C", args.solvent, args.dept135)
+    _print_notes(peaks, carbon)
+    result = identifier.identify(args.formula, peaks.spectrum, args.candidates, carbon and carbon.spectrum)
+    result.dropped = peaks.dropped + (carbon.dropped if carbon else ()) + result.dropped
 
     def render(option: str) -> str:
         if option == "--json":
@@ -294,7 +302,7 @@ def _run_identify(args: argparse.Namespace) -> int:
             return csv_text(result)
         from .report import report_html
 
-        return report_html(result)
+        return report_html(result, trace=peaks.trace, carbon_trace=carbon and carbon.trace)
 
     texts = {option: render(option) for option in outputs}
     for option, path in outputs.items():
@@ -309,6 +317,13 @@ def _run_identify(args: argparse.Namespace) -> int:
     if not result.complete:
         print("peakrank: the run stopped early; the list is incomplete", file=sys.stderr)
     return 0
+
+
+def _print_notes(*sources) -> None:
+    """What picking a spectrum file did (referencing, picking), one stderr line each."""
+    for source in sources:
+        for note in () if source is None else source.notes:
+            print(f"peakrank: {note}", file=sys.stderr)
 
 
 def _check_outputs(args: argparse.Namespace, options: dict[str, tuple[str, str]]) -> dict[str, str]:
@@ -431,8 +446,15 @@ def _run_predict(args: argparse.Namespace) -> int:
 
 
 def _add_peaks(sub) -> None:
-    pea = sub.add_parser("peaks", help="print the peak list read from a file, in the style --peaks accepts")
-    pea.add_argument("file", metavar="FILE", help="a peak file (.csv, .tsv, .json, .jdx, .txt) or inline text")
+    pea = sub.add_parser("peaks", help="print the peak list read from a file or picked from a spectrum, "
+                                       "in the style --peaks and --carbon accept")
+    pea.add_argument("file", metavar="FILE",
+                     help="a peak file (.csv, .tsv, .json, .jdx, .txt), a 1H or 13C spectrum (JCAMP-DX, Bruker "
+                          "folder) or inline text")
+    pea.add_argument("--dept135", metavar="FILE",
+                     help="a DEPT-135 spectrum that types the lines picked from FILE, a 13C spectrum")
+    pea.add_argument("--solvent", metavar="NAME",
+                     help="solvent to reference and drop by (default: the file's, else CDCl3)")
     pea.add_argument("--json", metavar="PATH", help="write the peaks as JSON ('-' for stdout, nothing else there)")
     pea.add_argument("--force", action="store_true", help="replace the --json file if it exists")
     pea.set_defaults(run=_run_peaks)
@@ -441,21 +463,26 @@ def _add_peaks(sub) -> None:
 def _run_peaks(args: argparse.Namespace) -> int:
     import json
 
-    from .report import peak_json, write_whole_file
-    from .spectra import format_peaks, read_peaks
+    from .report import peak_list_json, write_whole_file
+    from .spectra import CarbonSpectrum, format_carbon_peaks, format_peaks, read_peak_source
 
     outputs = _check_outputs(args, {"--json": ("json", "peaks.json")})
-    spectrum = read_peaks(args.file)
-    text = json.dumps({"solvent": spectrum.solvent, "field_mhz": spectrum.field_mhz,
-                       "peaks": [peak_json(p) for p in spectrum.peaks]}, indent=2, ensure_ascii=False) + "\n"
+    source = read_peak_source(args.file, None, args.solvent, args.dept135)
+    spectrum = source.spectrum
+    text = json.dumps(peak_list_json(source), indent=2, ensure_ascii=False) + "\n"
     if outputs.get("--json", "-") != "-":
         write_whole_file(outputs["--json"], text, args.force)
+    _print_notes(source)
+    for d in source.dropped:
+        print(f"peakrank: dropped {d.peak.caption} ({d.reason})", file=sys.stderr)
     if outputs.get("--json") == "-":
         sys.stdout.write(text)
         return 0
     facts = ", ".join(f for f in (f"{spectrum.field_mhz:g} MHz" if spectrum.field_mhz else "", spectrum.solvent or "")
                       if f)
-    print(f"1H NMR{f' ({facts})' if facts else ''} δ {format_peaks(spectrum.peaks)}")
+    carbon = isinstance(spectrum, CarbonSpectrum)
+    listed = format_carbon_peaks(spectrum.peaks) if carbon else format_peaks(spectrum.peaks)
+    print(f"{'13C' if carbon else '1H'} NMR{f' ({facts})' if facts else ''} δ {listed}")
     return 0
 
 

@@ -578,8 +578,8 @@ def test_unknown_solvent_name_is_refused_with_the_known_ones():
         ("empty.json", b'{"peaks": []}', "empty"),
         ("bad_field.json", b'{"field_mhz": "fast", "peaks": [{"shift": 2.0, "integral": 1}]}', "field_mhz"),
         ("bad_solvent.json", b'{"solvent": "CDCl4", "peaks": [{"shift": 2.0, "integral": 1}]}', "unknown solvent"),
-        ("no_table.jdx", b"##TITLE= x\n##JCAMP-DX= 5.01\n##END=\n", "no ##PEAK TABLE"),
-        ("garbage.jdx", b"garbage\x00\xff", "cannot read|no ##PEAK TABLE"),
+        ("no_table.jdx", b"##TITLE= x\n##JCAMP-DX= 5.01\n##END=\n", "nor a peak list"),
+        ("garbage.jdx", b"garbage\x00\xff", "not a JCAMP-DX file"),
         ("bad_mult.jdx", (b"##TITLE= x\n##JCAMP-DX= 5.01\n##XUNITS= PPM\n##PEAK TABLE= (XY..XY)\n2.0, 1\n"
                           b"##PEAK ASSIGNMENTS= (XYMA)\n(2.0, 1, X, <a>)\n##END=\n"), "multiplicity"),
         ("bad_solvent.jdx", (b"##TITLE= x\n##JCAMP-DX= 5.01\n##.SOLVENT NAME= CDCl4\n##XUNITS= PPM\n"

@@ -237,3 +237,7 @@ def test_bruker_2d_folder_is_refused(tmp_path):
     (root / "ser").write_bytes(b"\0" * 16)
     with pytest.raises(InputError, match="2D"):
         read_trace(root)
+
+
+def test_long_inline_text_is_not_taken_for_a_file_name():
+    assert not is_spectrum_source(", ".join(f"{7 - i * 0.01:.2f} (1H)" for i in range(60)))

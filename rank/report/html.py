@@ -4,22 +4,30 @@ For each of the top candidates: its 2D structure (RDKit SVG) with every proton
 class in its own colour, the observed peaks as a stick spectrum against the
 predicted one in the same colours (ppm decreasing to the right, as spectra are
 drawn), the assignment with the increment arithmetic, and the misfit's parts.
-All text that came from the user is escaped.
+When the peaks were picked from a spectrum file, the measured trace is drawn
+faintly under the observed sticks. All text that came from the user is escaped.
 """
 
 from __future__ import annotations
 
 import math
 import re
+from collections.abc import Callable
 from html import escape
 
+import numpy as np
 from rdkit import Chem
 from rdkit.Chem.Draw import rdMolDraw2D
 
 from ..shortlist import CAUTION, Candidate, Shortlist
+from ..spectra import Trace
 from .text import assignment_rows, carbon_rows, dropped_by_nucleus
 
-__all__ = ["PALETTE", "carbon_stick_svg", "report_html", "stick_svg", "structure_svg"]
+__all__ = ["PALETTE", "TRACE_POINTS", "carbon_stick_svg", "report_html", "stick_svg", "structure_svg", "trace_polyline"]
+
+TRACE_POINTS = 3000
+"""Most points of a measured trace drawn in a stick spectrum: the trace inside the drawn window is cut
+into TRACE_POINTS / 2 runs and each run drawn by its lowest and highest point, so no peak is lost."""
 
 PALETTE = ("#1f77b4", "#d62728", "#2ca02c", "#9467bd", "#ff7f0e", "#17becf", "#8c564b",
            "#e377c2", "#bcbd22", "#7f7f7f", "#393b79", "#ad494a", "#637939", "#843c39")
@@ -115,7 +123,8 @@ def _observed_heights(candidate: Candidate, result: Shortlist) -> list[int]:
     return heights
 
 
-def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height: int = 244) -> str:
+def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height: int = 244,
+              trace: Trace | None = None) -> str:
     """Observed sticks above the baseline, predicted sticks below, coloured by proton class.
 
     Stick heights are H counts on one scale; the ppm axis decreases to the right,
@@ -130,6 +139,8 @@ def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height:
         The identification the candidate belongs to (observed and dropped peaks).
     width, height : int
         Size of the drawing in pixels.
+    trace : Trace, optional
+        The measured spectrum the peaks were picked from, drawn faintly in the observed half.
 
     Returns
     -------
@@ -164,6 +175,8 @@ def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height:
                      f'<text x="{xt}" y="{axis + 16}" text-anchor="middle">{tick}</text>')
         tick -= 1
     parts.append(_baselines(left, right, mid, axis, height, "δ / ppm"))
+    if trace is not None:
+        parts.append(trace_polyline(trace, x, (low, high), (top, mid)))
     parts.extend(_dropped_stick(x(p.shift), mid, scale, p.caption) for p in dropped)
     for i, p in enumerate(peaks):
         color = _color(owner[i]) if i in owner else "#999"
@@ -182,6 +195,47 @@ def stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height:
     return "".join(parts)
 
 
+def trace_polyline(trace: Trace, x: Callable[[float], float], window: tuple[float, float],
+                   band: tuple[float, float], points: int = TRACE_POINTS) -> str:
+    """A measured trace as one SVG ``<polyline>`` inside a stick spectrum.
+
+    Parameters
+    ----------
+    trace : the spectrum.
+    x : the drawing's ppm-to-pixel map.
+    window : (low, high) ppm drawn; the rest of the trace is left out.
+    band : (top, baseline) pixel rows: the tallest point reaches ``top``, the trace's median sits on the
+        baseline; points below it are drawn on it.
+    points : most points drawn (:data:`TRACE_POINTS`).
+
+    Returns
+    -------
+    str
+        The ``<polyline>`` element, or "" when no point lies in the window.
+    """
+    ppm, y = np.asarray(trace.ppm, dtype=float), np.asarray(trace.intensity, dtype=float)
+    inside = (ppm >= window[0]) & (ppm <= window[1])
+    ppm, y = ppm[inside], y[inside]
+    if len(ppm) < 2:
+        return ""
+    runs = max(1, points // 2)
+    if len(ppm) > points:
+        size = len(ppm) // runs
+        cut = size * runs
+        blocks = y[:cut].reshape(runs, size)
+        lowest, highest = blocks.argmin(axis=1), blocks.argmax(axis=1)
+        starts = np.arange(runs) * size
+        chosen = np.sort(np.concatenate([starts + lowest, starts + highest]))
+        ppm, y = ppm[chosen], y[chosen]
+    base, peak = float(np.median(y)), float(y.max())
+    top, bottom = band
+    level = np.clip((y - base) / (peak - base), 0.0, 1.0) if peak > base else np.zeros_like(y)
+    rows = bottom - level * (bottom - top)
+    coordinates = " ".join(f"{x(float(a)):.1f},{float(b):.1f}" for a, b in zip(ppm, rows, strict=True))
+    return (f'<polyline points="{coordinates}" fill="none" stroke="#8aa" stroke-width="0.7" '
+            f'opacity="0.8"><title>measured spectrum ({escape(trace.source)})</title></polyline>')
+
+
 def _baselines(left: int, right: int, mid: int, axis: int, height: int, unit: str) -> str:
     """The observed/predicted baseline, the ppm axis line and their labels of a stick spectrum."""
     return (f'<line x1="{left}" y1="{mid}" x2="{right}" y2="{mid}" stroke="#444"/>'
@@ -197,12 +251,14 @@ def _dropped_stick(at: float, mid: int, scale: float, caption: str) -> str:
             f'stroke-dasharray="3 2"><title>{escape(caption)}, dropped</title></line>')
 
 
-def carbon_stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height: int = 200) -> str:
+def carbon_stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, height: int = 200,
+                     trace: Trace | None = None) -> str:
     """Observed 13C lines above the baseline, the candidate's predicted carbon classes below.
 
     Heights are carbons (a line written as 2C, a class of equivalent carbons); a predicted class
     has the colour of its observed line's first class, grey when unplaced; an observed line no
-    class took is grey, a dropped line grey and dashed.  The ppm axis decreases to the right.
+    class took is grey, a dropped line grey and dashed.  The ppm axis decreases to the right.  A
+    measured ``trace`` (the 13C spectrum the lines were picked from) is drawn faintly above.
     """
     lines, signals = result.observation.carbons, candidate.scored.carbon_signals
     dropped = [d.peak for d in dropped_by_nucleus(result)[1]]
@@ -229,6 +285,8 @@ def carbon_stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, 
                      f'<line x1="{xt}" y1="{axis}" x2="{xt}" y2="{axis + 4}" stroke="#444"/>'
                      f'<text x="{xt}" y="{axis + 16}" text-anchor="middle">{tick}</text>')
     parts.append(_baselines(left, right, mid, axis, height, "δC / ppm"))
+    if trace is not None:
+        parts.append(trace_polyline(trace, x, (low, high), (top, mid)))
     parts.extend(_dropped_stick(x(p.shift), mid, scale, p.caption) for p in dropped)
     for i, p in enumerate(lines):
         color = _color(owner[i]) if i in owner else "#999"
@@ -245,7 +303,7 @@ def carbon_stick_svg(candidate: Candidate, result: Shortlist, width: int = 640, 
     return "".join(parts)
 
 
-def _carbon_section(c: Candidate, result: Shortlist) -> str:
+def _carbon_section(c: Candidate, result: Shortlist, trace: Trace | None = None) -> str:
     """The 13C part of a candidate's section: misfit parts, stick spectrum, assignment; "" without 13C."""
     match = c.scored.carbon
     if match is None:
@@ -261,7 +319,8 @@ def _carbon_section(c: Candidate, result: Shortlist) -> str:
                     f"<td><code>{escape(row['explanation'])}</code></td></tr>")
     return (
         f"<h3>13C: {c.scored.carbon_weight:g} × {match.misfit:.3f} = {c.scored.carbon_misfit:.3f} of the misfit</h3>"
-        f"<div>{carbon_stick_svg(c, result)}<p class='muted legend'>{_CARBON_LEGEND}</p></div>"
+        f"<div>{carbon_stick_svg(c, result, trace=trace)}<p class='muted legend'>{_CARBON_LEGEND}"
+        f"{_TRACE_LEGEND if trace else ''}</p></div>"
         "<table><tr><th>13C misfit part (per carbon class)</th><th>value</th></tr>"
         f"<tr><td>shift residuals</td><td class='num'>{p.shift:.3f}</td></tr>"
         f"<tr><td>type (DEPT)</td><td class='num'>{p.type:.3f}</td></tr>"
@@ -277,11 +336,14 @@ _CARBON_LEGEND = ("13C lines observed above, the candidate's carbon classes pred
                   "a class has its line's colour, grey when no line took it. Grey line: no class assigned; dashed: "
                   "dropped.")
 
+_TRACE_LEGEND = " Faint line: the measured spectrum the peaks were picked from."
+
 _LEGEND = ("Observed above the line, predicted below, heights in H; each colour is one proton class of the "
            "structure and the table. Grey: observed peak with no class assigned; dashed: dropped peak.")
 
 
-def _candidate_section(c: Candidate, result: Shortlist) -> str:
+def _candidate_section(c: Candidate, result: Shortlist, trace: Trace | None = None,
+                       carbon_trace: Trace | None = None) -> str:
     parts = c.scored.match.parts
     rows = []
     for row in assignment_rows(c, result):
@@ -298,8 +360,8 @@ def _candidate_section(c: Candidate, result: Shortlist) -> str:
         f"<h2>Rank {c.rank}{tie}: <code>{escape(c.smiles)}</code></h2>"
         f"<p class='muted'>InChIKey {escape(c.inchikey)} · misfit {c.misfit:.3f} · confidence "
         f"{c.confidence:.1%} · {escape(c.reason)}</p>"
-        f"<div class='card'><div>{structure_svg(c)}</div><div>{stick_svg(c, result)}"
-        f"<p class='muted legend'>{_LEGEND}</p></div></div>"
+        f"<div class='card'><div>{structure_svg(c)}</div><div>{stick_svg(c, result, trace=trace)}"
+        f"<p class='muted legend'>{_LEGEND}{_TRACE_LEGEND if trace else ''}</p></div></div>"
         "<table><tr><th>misfit part</th><th>value</th></tr>"
         f"<tr><td>shift residuals</td><td class='num'>{parts.shift:.3f}</td></tr>"
         f"<tr><td>integrals</td><td class='num'>{parts.integral:.3f}</td></tr>"
@@ -309,12 +371,14 @@ def _candidate_section(c: Candidate, result: Shortlist) -> str:
         f"<tr><td>integral rounding</td><td class='num'>{c.scored.normalisation.error:.3f}</td></tr></table>"
         "<table><tr><th>class</th><th>observed δ</th><th>obs.</th><th>predicted δ</th><th>nH</th>"
         "<th>pred.</th><th>z</th><th>arithmetic</th></tr>" + "".join(rows) + "</table>"
-        + _carbon_section(c, result)
+        + _carbon_section(c, result, carbon_trace)
     )
 
 
-def report_html(result: Shortlist, title: str | None = None, shown: int = 5) -> str:
-    """The whole report as one HTML document."""
+def report_html(result: Shortlist, title: str | None = None, shown: int = 5, trace: Trace | None = None,
+                carbon_trace: Trace | None = None) -> str:
+    """The whole report as one HTML document; ``trace`` and ``carbon_trace``, the measured 1H and 13C
+    spectra the peaks were picked from, are drawn under the observed sticks."""
     obs = result.observation
     norm = result.candidates[0].scored.normalisation if result.candidates else obs.normalisations[0]
     heading = escape(title or f"peakrank short list for {result.formula.hill}")
@@ -349,7 +413,7 @@ def report_html(result: Shortlist, title: str | None = None, shown: int = 5) -> 
         + f"<p>{result.explored:,} candidates scored; search {escape(state)}.</p>"
         "<h2>Short list</h2><table><tr><th>rank</th><th>SMILES</th><th>misfit</th><th>confidence</th>"
         "<th>reason</th></tr>" + summary + "</table>"
-        + "".join(_candidate_section(c, result) for c in result.candidates[:shown])
+        + "".join(_candidate_section(c, result, trace, carbon_trace) for c in result.candidates[:shown])
         + f"<p class='caution'>{escape(CAUTION)}</p>"
     )
     return ("<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"

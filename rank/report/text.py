@@ -18,12 +18,12 @@ from pathlib import Path
 
 from ..errors import InputError
 from ..shortlist import CAUTION, Candidate, Shortlist
-from ..spectra import CarbonPeak
+from ..spectra import CarbonPeak, CarbonSpectrum
 
 __all__ = [
     "CONFIDENCE_DECIMALS", "COUPLING_DECIMALS", "INTEGRAL_DIGITS", "MISFIT_DECIMALS", "PENALTY_DECIMALS",
     "SHIFT_DECIMALS", "Z_DECIMALS", "assignment_rows", "carbon_peak_json", "carbon_rows", "csv_text",
-    "dropped_by_nucleus", "json_text", "peak_json", "terminal_text", "to_json", "write_whole_file"
+    "dropped_by_nucleus", "json_text", "peak_json", "peak_list_json", "terminal_text", "to_json", "write_whole_file"
 ]
 
 SHIFT_DECIMALS = 3        # ppm
@@ -172,6 +172,19 @@ def peak_json(p) -> dict:
 def carbon_peak_json(p: CarbonPeak) -> dict:
     """One observed 13C line as JSON: shift, type (C, CH, CH2, CH3 or null), carbons written, label."""
     return {"shift": round(p.shift, 2), "type": p.dept, "carbons": p.carbons, "label": p.label}
+
+
+def peak_list_json(source) -> dict:
+    """A peak list as read or picked (a :class:`rank.spectra.PeakSource`) as JSON: nucleus, solvent,
+    field, the peaks, and the peaks picking dropped with the reason, and its notes."""
+    spectrum = source.spectrum
+    carbon = isinstance(spectrum, CarbonSpectrum)
+    as_json = carbon_peak_json if carbon else peak_json
+    return {"nucleus": "13C" if carbon else "1H", "solvent": spectrum.solvent, "field_mhz": spectrum.field_mhz,
+            "peaks": [as_json(p) for p in spectrum.peaks],
+            "dropped": [{**(carbon_peak_json(d.peak) if isinstance(d.peak, CarbonPeak) else peak_json(d.peak)),
+                         "reason": d.reason} for d in source.dropped],
+            "notes": list(source.notes)}
 
 
 def _peak_caption(p) -> str:

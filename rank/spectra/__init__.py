@@ -6,7 +6,7 @@ solvent signals, and turn integrals into H counts.
 ([4.12, 7.26], 'CDCl3')
 """
 
-from .files import read_carbon_peaks, read_peaks
+from .files import PeakSource, read_carbon_peaks, read_peak_source, read_peaks
 from .integrals import Normalisation, exchangeable_bound, normalise, with_counts
 from .peaks import (
     CARBON_SHIFT_RANGE,
@@ -34,6 +34,7 @@ from .solvents import (
     solvent_names,
 )
 from .text import parse_carbon_text, parse_peak_text
+from .trace import Trace, read_trace
 
 __all__ = [
     "CARBON_SHIFT_RANGE",
@@ -46,8 +47,10 @@ __all__ = [
     "Dropped",
     "Normalisation",
     "Peak",
+    "PeakSource",
     "Solvent",
     "Spectrum",
+    "Trace",
     "coupling_groups",
     "drop_carbon_solvent_signals",
     "drop_labelled_peaks",
@@ -62,7 +65,9 @@ __all__ = [
     "parse_carbon_text",
     "parse_peak_text",
     "read_carbon_peaks",
+    "read_peak_source",
     "read_peaks",
+    "read_trace",
     "solvent_names",
     "with_counts",
 ]

@@ -1,6 +1,8 @@
-"""Peak list files: CSV, TSV, JSON, JCAMP-DX peak tables, and text files of inline lists.
+"""Peak list files: CSV, TSV, JSON, JCAMP-DX peak tables, and text files of inline lists; spectrum files
+(JCAMP-DX spectra, Bruker folders) are read as traces and their peaks picked.
 
-:func:`read_peaks` takes a file path (by its suffix) or inline text.
+:func:`read_peaks` takes a file path (by its suffix) or inline text; :func:`read_peak_source` also says
+what picking dropped and how, and keeps the trace.
 """
 
 from __future__ import annotations
@@ -9,14 +11,16 @@ import json
 import math
 import re
 import warnings
+from dataclasses import dataclass
 from pathlib import Path
 
 from ..errors import InputError
-from .peaks import DASH, NUMBER, CarbonSpectrum, Peak, Spectrum, make_peak, number
+from .peaks import DASH, NUMBER, CarbonSpectrum, Dropped, Peak, Spectrum, make_peak, number
 from .solvents import find_solvent
 from .text import carbon_peaks, parse_carbon_text, parse_peak_text
+from .trace import Trace, is_spectrum_source, read_trace
 
-__all__ = ["read_carbon_peaks", "read_peaks"]
+__all__ = ["PeakSource", "read_carbon_peaks", "read_peak_source", "read_peaks"]
 
 
 def _peak_from_fields(shift: str, integral: object, mult: object, j: object, counts_h: bool = False,
@@ -236,11 +240,17 @@ def _read_source(source: str, readers: dict):
     return readers["table"](path, "," if suffix == ".csv" else "\t")
 
 
-def read_peaks(source: str) -> Spectrum:
+def read_peaks(source: str, solvent: str | None = None) -> Spectrum:
     """Read peaks from a file (by its suffix) or from inline text.
+
+    A JCAMP-DX spectrum without a peak table, or a Bruker folder, is read as a trace and its peaks
+    picked (referenced to ``solvent``, else the file's); :func:`read_peak_source` gives what picking
+    dropped and its notes too.
 
     Raises InputError for unreadable files, unknown formats and malformed text.
     """
+    if is_spectrum_source(source):
+        return read_peak_source(source, "1H", solvent).spectrum
     spectrum = _read_source(source, {"json": _read_json, "jcamp": _read_jcamp, "text": parse_peak_text,
                                      "table": _read_table_file})
     if not spectrum.peaks:
@@ -320,8 +330,11 @@ def _read_carbon_jcamp(path: Path) -> CarbonSpectrum:
     return CarbonSpectrum(carbon_peaks([(f"{shift:.4f}", mult or "") for shift, _, mult in rows]), field, solvent)
 
 
-def read_carbon_peaks(source: str) -> CarbonSpectrum:
+def read_carbon_peaks(source: str, solvent: str | None = None, dept135: str | None = None) -> CarbonSpectrum:
     """Read 13C peaks from a file (by its suffix) or from inline text, as :func:`read_peaks` reads 1H.
+
+    A 13C spectrum file is picked as :func:`read_peak_source` does, its lines typed by the DEPT-135
+    spectrum file ``dept135`` when given.
 
     A CSV or TSV table needs a shift column (``shift``, ``delta``, ``ppm``, ...) and may have a type
     column (``type``, ``dept``: C, CH, CH2, CH3, Cq or s/d/t/q; or ``n_h``: 0 to 3), a ``carbons``
@@ -330,6 +343,8 @@ def read_carbon_peaks(source: str) -> CarbonSpectrum:
 
     Raises InputError for unreadable files, unknown formats and malformed text.
     """
+    if dept135 is not None or is_spectrum_source(source):
+        return read_peak_source(source, "13C", solvent, dept135).spectrum
     spectrum = _read_source(source, {"json": _read_carbon_json, "jcamp": _read_carbon_jcamp,
                                      "text": parse_carbon_text, "table": _read_carbon_table})
     if not spectrum.peaks:
@@ -337,3 +352,87 @@ def read_carbon_peaks(source: str) -> CarbonSpectrum:
     return spectrum
 
 
+
+
+# ------------------------------------------------------------ spectrum files ----
+
+
+@dataclass(frozen=True, eq=False)
+class PeakSource:
+    """A peak list with what reading it involved.
+
+    Attributes
+    ----------
+    spectrum : the peaks read or picked (a :class:`Spectrum`, or a :class:`CarbonSpectrum` for 13C).
+    dropped : peaks picked from a trace and left out, with the reason (solvent, water, TMS, 13C
+        satellites, spinning sidebands); empty for a typed list, whose solvent peaks are dropped later.
+    notes : how the list was obtained from a trace (referencing, picking), one sentence each.
+    trace : the spectrum picked from, re-referenced; None for a typed list.
+    """
+
+    spectrum: Spectrum | CarbonSpectrum
+    dropped: tuple[Dropped, ...] = ()
+    notes: tuple[str, ...] = ()
+    trace: Trace | None = None
+
+
+def read_peak_source(source: str, nucleus: str | None = "1H", solvent: str | None = None,
+                     dept135: str | None = None) -> PeakSource:
+    """Read a 1H or 13C peak list from inline text, a peak file or a spectrum file.
+
+    Parameters
+    ----------
+    source : inline text, a peak file (CSV, TSV, JSON, JCAMP-DX peak table, text), or a spectrum file
+        (a JCAMP-DX spectrum, a Bruker experiment or processed-data folder), whose peaks are picked
+        by :func:`rank.spectra.picking.pick_proton` or :func:`~rank.spectra.picking.pick_carbon`.
+    nucleus : "1H" or "13C"; None takes a spectrum file's own nucleus (13C with ``dept135``), and reads
+        any other source as a 1H list.
+    solvent : the solvent to reference and drop by; None takes the file's.
+    dept135 : for 13C, a DEPT-135 spectrum file that types the picked lines (CH and CH3 up, CH2
+        down, quaternary absent); only with a 13C spectrum file.
+
+    Returns
+    -------
+    PeakSource
+
+    Raises
+    ------
+    InputError
+        As :func:`read_peaks`; also for a spectrum of another nucleus, an FID, 2D data, and a DEPT-135
+        file given without a 13C spectrum file or whose experiment is another.
+    """
+    spectrum_file = is_spectrum_source(source)
+    if nucleus is None and dept135 is not None:
+        nucleus = "13C"
+    if nucleus not in (None, "1H", "13C"):
+        raise InputError(f"peak lists are read for 1H or 13C, not {nucleus}")
+    if dept135 is not None and (nucleus != "13C" or not spectrum_file):
+        raise InputError("--dept135 types the lines of a 13C spectrum file; give that file with --carbon "
+                         "(a JCAMP-DX spectrum or a Bruker folder)")
+    if not spectrum_file:
+        reader = read_carbon_peaks if nucleus == "13C" else read_peaks
+        return PeakSource(reader(source))
+    trace = read_trace(source, nucleus)
+    dept = None if dept135 is None else _dept135_trace(dept135)
+    from .picking import pick_carbon, pick_proton
+
+    if trace.nucleus == "1H":
+        picked = pick_proton(trace, solvent)
+    elif trace.nucleus == "13C":
+        picked = pick_carbon(trace, solvent, dept)
+    else:
+        raise InputError(f"{trace.source} is a {trace.nucleus} spectrum; peak lists are read for 1H or 13C")
+    if not picked.spectrum.peaks:
+        raise InputError(f"no peak picked in {trace.source}; check the file or give a peak list")
+    return PeakSource(picked.spectrum, tuple(picked.dropped), tuple(picked.notes), picked.trace)
+
+
+def _dept135_trace(source: str) -> Trace:
+    """The DEPT-135 spectrum; refused when its experiment is named and is not a DEPT-135."""
+    if not is_spectrum_source(source):
+        raise InputError(f"--dept135 {source!r} is not a spectrum file (a JCAMP-DX spectrum or a Bruker folder)")
+    trace = read_trace(source, "13C")
+    if trace.experiment and not trace.is_dept135:
+        raise InputError(f"{trace.source} was recorded with {trace.experiment!r}, not a DEPT-135; "
+                         "give the DEPT-135 spectrum")
+    return trace

@@ -51,12 +51,15 @@ def is_spectrum_source(source: str | Path) -> bool:
     """True when ``source`` names a Bruker experiment or processed-data folder, or a JCAMP-DX file that
     holds no peak table (a spectrum or FID, read with :func:`read_trace`)."""
     text = str(source).strip()
-    if "\n" in text or len(text) > 4096:
+    if not text or "\n" in text or len(text) > 4096:
         return False
     path = Path(text)
-    if path.is_dir():
-        return True
-    if path.suffix.lower() not in _JCAMP_SUFFIXES or not path.is_file():
+    try:
+        if path.is_dir():
+            return True
+        if path.suffix.lower() not in _JCAMP_SUFFIXES or not path.is_file():
+            return False
+    except OSError:  # inline text too long for a file name
         return False
     return _PEAK_TABLE.search(_read_text(path)) is None
 
@@ -154,7 +157,8 @@ def _check_jcamp_text(path: Path, text: str) -> None:
         raise InputError(f"{path.name} is an unprocessed FID; process it (Fourier transform, phase, baseline) "
                          "and export the spectrum, or give a peak list")
     if not spectra and "XYDATA" not in labels and "XYPOINTS" not in labels and "DATATABLE" not in labels:
-        raise InputError(f"{path.name} holds no spectrum (no ##XYDATA, ##XYPOINTS or ##DATA TABLE)")
+        raise InputError(f"{path.name} holds neither a spectrum (##XYDATA, ##XYPOINTS, ##DATA TABLE) nor a "
+                         "peak list (##PEAK TABLE)")
 
 
 def _first(dic: dict, key: str) -> str | None:
