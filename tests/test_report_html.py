@@ -368,3 +368,40 @@ def test_report_screenshot_is_a_real_picture(browser, tmp_path, result):
     assert (width, height) == (1200, 2000)
     # a blank page has no busy row and one heading about 1 %; the report fills the window
     assert busy > 0.2
+
+
+def _lorentzian_trace(points: int = 65536):
+    """A measured-looking 1H trace: ethyl acetate's three groups as Lorentzians (the CH3 singlet tallest)
+    on -1 to 13 ppm, with a little noise."""
+    import numpy as np
+
+    from rank.spectra import Trace
+
+    ppm = np.linspace(13.0, -1.0, points)
+    y = sum(h / (1 + ((ppm - c) / 0.002) ** 2) for c, h in ((4.12, 20.0), (2.05, 100.0), (1.26, 30.0)))
+    y = y + np.random.default_rng(1).normal(0, 0.05, points)
+    return Trace(ppm, y, "1H", 400.0, "CDCl3", "zg30", "ethyl acetate <test>")
+
+
+def test_measured_trace_is_drawn_downsampled_under_the_sticks(result):
+    from rank.report.html import TRACE_POINTS
+
+    trace = _lorentzian_trace()
+    svg = ET.fromstring(stick_svg(result.candidates[0], result, trace=trace))
+    lines = svg.findall(f"{{{SVG_NS}}}polyline")
+    assert len(lines) == 1
+    points = [tuple(map(float, p.split(","))) for p in lines[0].get("points").split()]
+    assert 1000 < len(points) <= TRACE_POINTS
+    # the tallest point of the drawing is the 2.05 singlet, right where its observed stick stands
+    top_x = min(points, key=lambda p: p[1])[0]
+    assert top_x == pytest.approx(float(_observed(_stick_lines(svg), "2.05 (s)").get("x1")), abs=1.0)
+    assert "ethyl acetate &lt;test&gt;" in stick_svg(result.candidates[0], result, trace=trace)
+
+
+def test_report_draws_the_trace_only_when_given(result):
+    assert "<polyline" not in report_html(result)
+    with_trace = report_html(result, trace=_lorentzian_trace())
+    assert with_trace.count("<polyline") == min(3, len(result.candidates))
+    assert "measured spectrum" in with_trace
+    for svg in _svgs(with_trace):
+        assert svg is not None  # every drawing still parses
