@@ -37,6 +37,8 @@ from rank.formula import parse_formula
 from rank.generate import IsomerStream
 from rank.generate.constraints import carbon_limits
 from rank.generate.stream import DEFAULT_CEILING, MAX_HEAVY_ATOMS
+from rank.shortlist import evidence_limits, observe
+from rank.spectra import read_carbon_peaks, read_peaks
 
 DATA = Path(__file__).resolve().parent / "data" / "open-spectra.tsv"
 _TYPES = {"C": 0, "CH": 1, "CH2": 2, "CH3": 3}
@@ -62,25 +64,46 @@ def _quartiles(values: list[float]) -> str:
     return f"{q[0]:,.1f} / {statistics.median(values):,.1f} / {q[2]:,.1f}"
 
 
+def _variants(c13: dict[str, str]) -> dict[str, object]:
+    """Evidence name -> function (case, formula) -> the limits it sets."""
+    def proton(case, formula, carbon=None):
+        spectrum = read_carbon_peaks(carbon) if carbon else None
+        observation, _ = observe(formula, read_peaks(case.peaks), case.solvent, carbon=spectrum)
+        return evidence_limits(formula, observation)
+
+    return {
+        "13c-typed": lambda case, formula: carbon_limits(formula, _peaks(c13[case.id], True)),
+        "13c": lambda case, formula: carbon_limits(formula, _peaks(c13[case.id], False)),
+        "1h": proton,
+        "1h+13c-typed": lambda case, formula: proton(case, formula, c13[case.id]),
+    }
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--carbons", default="6-12")
+    parser.add_argument("--heteroatoms", type=int, default=None, 
+                        help="only compounds with at most N atoms besides C, H")
     parser.add_argument("--build", type=int, default=20_000)
     parser.add_argument("--sample", type=int, default=None, help="every k-th compound only (a quick look)")
+    parser.add_argument("--evidence", default="13c-typed,13c",
+                        help="comma-separated: 13c-typed, 13c (shifts only), 1h, 1h+13c-typed")
     args = parser.parse_args()
     low, high = (int(x) for x in args.carbons.split("-"))
     c13 = _c13()
+    variants = _variants(c13)
     cases = [c for c in read_cases(str(DATA), "held-out") if low <= parse_formula(c.formula)["C"] <= high
-             and parse_formula(c.formula).heavy_atoms <= MAX_HEAVY_ATOMS]
+             and parse_formula(c.formula).heavy_atoms <= MAX_HEAVY_ATOMS
+             and (args.heteroatoms is None or _heteroatoms(parse_formula(c.formula)) <= args.heteroatoms)]
     if args.sample:
         cases = cases[::args.sample]
     print(f"{len(cases)} held-out compounds with {low}-{high} carbons", file=sys.stderr)
     start = time.time()
-    for typed in (True, False):
+    for name in args.evidence.split(","):
         factors, under_before, under_after, kept_shares, broken = [], 0, 0, [], 0
         for i, case in enumerate(cases):
             formula = parse_formula(case.formula)
-            limits = carbon_limits(formula, _peaks(c13[case.id], typed))
+            limits = variants[name](case, formula)
             truth = Chem.MolFromSmiles(case.smiles)
             broken += not all(lim.holds(truth) for lim in limits)
             plain = IsomerStream(formula, ceiling=0).estimate()
@@ -96,11 +119,9 @@ def main() -> None:
                 checked_out = sum(built.hinted.values()) - planned   # removed by the checks of built structures
                 if built.complete_run and kept + checked_out:
                     kept_shares.append(kept / (kept + checked_out))
-            print(f"\r{'typed' if typed else 'untyped'} {i + 1}/{len(cases)} {time.time() - start:.0f} s",
-                  end="", file=sys.stderr)
+            print(f"\r{name} {i + 1}/{len(cases)} {time.time() - start:.0f} s", end="", file=sys.stderr)
         print(file=sys.stderr)
-        label = "with DEPT types" if typed else "shifts only"
-        print(f"13C limits {label}: {len(cases)} compounds, C{low}-C{high}")
+        print(f"limits of {name}: {len(cases)} compounds, C{low}-C{high}")
         print(f"  estimated space shrinks by a factor (quartiles / median / upper quartile): {_quartiles(factors)}")
         print(f"  geometric mean factor: {statistics.geometric_mean(factors):,.1f}")
         print(f"  under the default ceiling ({DEFAULT_CEILING:,}): {under_before} before, {under_after} after")
@@ -108,6 +129,10 @@ def main() -> None:
             print(f"  built and checked ({len(kept_shares)} compounds with at most {args.build:,} estimated): "
                   f"median share kept {statistics.median(kept_shares):.2f}")
         print(f"  true structure breaks a limit: {broken}")
+
+
+def _heteroatoms(formula) -> int:
+    return formula.heavy_atoms - formula["C"]
 
 
 if __name__ == "__main__":

@@ -23,6 +23,7 @@ from collections import Counter
 from collections.abc import Iterable, Iterator, Sequence
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field, replace
+from functools import cache
 from pathlib import Path
 from typing import NamedTuple
 
@@ -33,6 +34,7 @@ from .errors import InputError
 from .formula import Formula, parse_formula
 from .generate import (
     DEFAULT_CEILING,
+    FragmentType,
     Hint,
     IsomerStream,
     Limit,
@@ -165,6 +167,16 @@ class Shortlist:
     rejected: dict[str, int] = field(default_factory=dict)
     tracked_misfit: float | None = None
     misfits: list[float] = field(default_factory=list)
+    estimated: float | None = None
+    """The estimated structures of the generated space (Knuth estimates of its runs, after the limits);
+    None for a candidates file.  With ``complete`` False, ``explored / estimated`` is about the share scored."""
+
+    @property
+    def coverage(self) -> float | None:
+        """About what share of the estimated space was scored (1 when complete); None without an estimate."""
+        if self.complete:
+            return 1.0
+        return None if not self.estimated else min(1.0, self.explored / self.estimated)
 
     def candidates_file_note(self) -> str | None:
         """One line on what a candidates file needed changed or left out beyond unreadable
@@ -464,6 +476,8 @@ class _Unit:
     part: int = 0
     parts: int = 1
     smiles: tuple[str, ...] = ()
+    estimate: float = 0.0
+    """The structures the unit is estimated to build (its share of the run's Knuth estimate)."""
 
 
 @dataclass
@@ -647,9 +661,15 @@ class Identifier:
         except SpaceTooLarge as exc:
             raise exc.with_advice(_SUSPECTS_ADVICE if exc.hopeless else _NARROW_ADVICE) from None
         plan = stream.plan()
-        units = [_Unit(tuple(types), part, parts) for types in plan.runs
-                 for parts in [_shares(stream, types)] for part in range(parts)]
+        units = []
+        for types in plan.runs:
+            guess = stream.estimate_run(types)
+            parts = _shares(guess)
+            units.extend(_Unit(tuple(types), part, parts, estimate=guess / parts) for part in range(parts))
+        expected = _expected_types(result.observation, result.formula)
+        units.sort(key=lambda u: _type_distance(u.types, expected))  # stable: plan order among equals
         result.hinted = dict(plan.hinted)
+        result.estimated = sum(u.estimate for u in units)
         return units, plan.pruned
 
     def _listed_units(self, source: str | Sequence[str], require, forbid, result: Shortlist) -> list[_Unit]:
@@ -680,8 +700,8 @@ class Identifier:
                     result.tracked_misfit = tally.tracked
                 timed_out = timed_out or tally.timed_out
                 if self.progress:
-                    print(f"peakrank: {done}/{len(units)} work units, {result.explored:,} candidates scored, "
-                          f"{time.time() - start:.0f} s", file=sys.stderr, end="\r", flush=True)
+                    print(_progress_line(done, len(units), result, time.time() - start), file=sys.stderr, end="\r",
+                          flush=True)
         finally:
             if self.progress and units:
                 print(file=sys.stderr)  # end the progress line, also when interrupted
@@ -733,6 +753,23 @@ _SUSPECTS_ADVICE = ("give the suspects as --candidates FILE (SMILES lines or SDF
                     "of this formula from a database)")
 _NARROW_ADVICE = ("narrow it with --require/--forbid, score a list of suspects with --candidates FILE, "
                   "or pass --ceiling 0 to lift the limit")
+
+
+def _progress_line(done: int, units: int, result: Shortlist, seconds: float) -> str:
+    """Work units done, candidates scored of the estimated space, time so far and an estimate of the time left."""
+    line = f"peakrank: {done}/{units} work units, {result.explored:,} candidates scored"
+    if result.estimated:
+        share = min(1.0, result.explored / result.estimated)
+        line += f" of about {result.estimated:,.0f} ({share:.0%})"
+        if 0 < share < 1 and seconds > 1:
+            line += f", about {_duration(seconds * (1 - share) / share)} left"
+    return f"{line}, {seconds:.0f} s   "
+
+
+def _duration(seconds: float) -> str:
+    if seconds < 90:
+        return f"{seconds:.0f} s"
+    return f"{seconds / 60:.0f} min" if seconds < 5400 else f"{seconds / 3600:.1f} h"
 
 
 def _stop(pool: ProcessPoolExecutor) -> None:
@@ -811,13 +848,53 @@ def _nothing_left(result: Shortlist, filtered: Counter, pruned: Counter,
     return f"no structure with standard valences has formula {hill}; check the formula"
 
 
-def _shares(stream: IsomerStream, types) -> int:
+def _shares(guess: float) -> int:
     """How many units one hydrogen distribution is cut into: about 4,000 estimated structures each.
 
     Fixed by the Knuth estimate with a fixed seed, so the same for any number of workers.
     """
-    guess = stream.estimate_run(types)
     return max(1, min(32, math.ceil(guess / 4000)))
+
+
+class _TypeCounts(NamedTuple):
+    """What a hydrogen distribution fixes that a 1H list also shows: CH3 groups and H on heteroatoms."""
+
+    methyls: int
+    labile: int
+
+
+def _expected_types(observation: Observation, formula: Formula) -> _TypeCounts:
+    """The CH3 groups and exchangeable H a 1H list suggests (first reading of the integrals): sharp 3, 6
+    and 9 H signals of the methyl window of ``rules/hints.tsv`` count as CH3 groups; broad signals and
+    unobserved H as exchangeable H (common practice; an ordering, not a constraint)."""
+    norm = observation.normalisations[0]
+    low, high = _methyl_window()
+    methyls = sum(c // 3 for p, c in zip(observation.peaks, norm.counts)
+                  if c in (3, 6, 9) and low <= p.shift <= high and not p.broad
+                  and p.multiplicity in (None, "s", "d", "t"))
+    labile = norm.missing + sum(c for p, c in zip(observation.peaks, norm.counts) if p.broad)
+    return _TypeCounts(methyls, min(labile, exchangeable_bound(formula["N"], formula["O"], formula["S"],
+                                                               formula["H"])))
+
+
+@cache
+def _methyl_window() -> tuple[float, float]:
+    row = next(r for r in read_table("hints") if r["id"] == "methyl")
+    return float(row["low"]), float(row["high"])
+
+
+def _type_distance(types, expected: _TypeCounts) -> int:
+    """How far a unit's hydrogen distribution is from what the list suggests: the units nearest go first,
+    so that a time budget scores the likeliest structures first.  Any order gives the same complete result."""
+    methyls = labile = 0
+    for t, c in types:
+        if isinstance(t, FragmentType):
+            methyls += c * t.fragment.carbons_of("C", (3,), None)
+        elif t.state.element == "C":
+            methyls += c * (t.hydrogens == 3)
+        else:
+            labile += c * t.hydrogens
+    return abs(methyls - expected.methyls) + abs(labile - expected.labile)
 
 
 def _ranked(best: list[Scored], log_norm: float, temp: float) -> list[Candidate]:

@@ -14,12 +14,13 @@ order are in ``atoms.py``, contracted groups in ``fragment.py``, the user's SMAR
 from .accept import Filter, Isomer, plausibility_filters
 from .atoms import AtomState, AtomType, atom_states
 from .constraints import Kind, Limit, carbon_limits, hint_limit, proton_limits
+from .fragment import FragmentType
 from .hints import Hint, read_hints
 from .smarts import compile_smarts
 from .stream import DEFAULT_CEILING, IsomerStream, Plan, SpaceTooLarge
 
 __all__ = [
-    "DEFAULT_CEILING", "AtomState", "AtomType", "Filter", "Hint", "Isomer", "IsomerStream", "Kind", "Limit", "Plan",
-    "SpaceTooLarge", "atom_states", "carbon_limits", "compile_smarts", "hint_limit", "plausibility_filters",
-    "proton_limits", "read_hints",
+    "DEFAULT_CEILING", "AtomState", "AtomType", "Filter", "FragmentType", "Hint", "Isomer", "IsomerStream", "Kind",
+    "Limit", "Plan", "SpaceTooLarge", "atom_states", "carbon_limits", "compile_smarts", "hint_limit",
+    "plausibility_filters", "proton_limits", "read_hints",
 ]

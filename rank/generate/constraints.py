@@ -470,7 +470,7 @@ def proton_limits(formula: Formula, peaks: Sequence, readings: Sequence[tuple[Se
 def _proton_bound(row: _ProtonRow, peaks: Sequence, counts: Sequence[int], missing: int,
                   labile: int) -> tuple[int, str]:
     """The bound of one row under one reading of the integrals, with its evidence."""
-    where = f"{row.low:g}-{row.high:g} ppm"
+    where = f"{row.low:g} to {row.high:g} ppm"
     if row.bound == "upper":
         h = sum(c for p, c in zip(peaks, counts) if p.high >= row.low and p.low <= row.high)
         unseen = f", {missing} H not observed" if missing else ""

@@ -122,6 +122,8 @@ def to_json(result: Shortlist) -> dict:
         "dbe": result.formula.dbe,
         "explored": result.explored,
         "complete": result.complete,
+        "estimated": None if result.estimated is None else round(result.estimated),
+        "coverage": None if result.coverage is None else round(result.coverage, 4),
         "solvent": obs.solvent,
         "field_mhz": obs.field_mhz,
         "peaks_used": [peak_json(p) for p in obs.peaks],
@@ -262,6 +264,9 @@ def terminal_text(result: Shortlist, detail: int = 1) -> str:
     if result.candidates_file_note():
         lines.append(result.candidates_file_note())
     state = "complete" if result.complete else "INCOMPLETE (budget spent: the truth may be missing)"
+    if not result.complete and result.coverage is not None:
+        state += (f"; about {result.coverage:.0%} of the estimated {result.estimated:,.0f} structures scored, "
+                  "the likeliest hydrogen distributions first")
     lines.append(f"{result.explored:,} candidates scored; search {state}")
     lines.append("")
     if not result.candidates:
