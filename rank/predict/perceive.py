@@ -74,6 +74,9 @@ DIASTEREOTOPIC_REACH = 2
 CIS_RING_MAX = 7
 """Largest ring in which an endocyclic double bond is taken as cis when the molecule gives no E/Z."""
 
+_ORDER = {Chem.BondType.SINGLE: 1.0, Chem.BondType.DOUBLE: 2.0, Chem.BondType.TRIPLE: 3.0,
+          Chem.BondType.AROMATIC: 1.5}
+"""``Bond.GetBondTypeAsDouble`` of the common bond types, without the call."""
 _STEREO_CIS = (Chem.BondStereo.STEREOCIS, Chem.BondStereo.STEREOZ)
 _STEREO_SET = (
     Chem.BondStereo.STEREOCIS, Chem.BondStereo.STEREOTRANS,
@@ -151,6 +154,9 @@ class Graph(NamedTuple):
     elements : the atomic numbers present (a table row needing another is not matched).
     stereo : for each stereo-defined double bond (a, b), in both directions:
         (atom on a, atom on b, whether those two are cis).
+    charge : formal charges.
+    bond_types : (begin atom, end atom, RDKit bond type) of each bond.
+    saturated : per atom, :meth:`sp3`.
     """
 
     mol: Chem.Mol
@@ -163,10 +169,13 @@ class Graph(NamedTuple):
     ranks: list[int]
     elements: frozenset[int]
     stereo: dict[tuple[int, int], tuple[int, int, bool]]
+    charge: list[int]
+    bond_types: list[tuple[int, int, Chem.BondType]]
+    saturated: list[bool]
 
     def sp3(self, i: int) -> bool:
         """Carbon with four single bonds (counting H)."""
-        return self.z[i] == 6 and not self.aromatic[i] and all(o == 1.0 for o in self.bonds[i].values())
+        return self.saturated[i]
 
 
 class Site(NamedTuple):
@@ -299,24 +308,28 @@ def _graph(mol: Chem.Mol) -> Graph:
         heavy = Chem.RemoveAllHs(mol)
     else:
         index, heavy = None, mol
-    z, nh, aromatic = [], [], []
+    z, nh, aromatic, charge = [], [], [], []
     for a in heavy.GetAtoms():
         z.append(a.GetAtomicNum())
         nh.append(a.GetTotalNumHs())
         aromatic.append(a.GetIsAromatic())
+        charge.append(a.GetFormalCharge())
     bonds: list[dict[int, float]] = [{} for _ in z]
-    stereo_bonds = []
+    stereo_bonds, bond_types = [], []
     for b in heavy.GetBonds():
-        i, j, order = b.GetBeginAtomIdx(), b.GetEndAtomIdx(), b.GetBondTypeAsDouble()
+        i, j, kind = b.GetBeginAtomIdx(), b.GetEndAtomIdx(), b.GetBondType()
+        order = _ORDER.get(kind) or b.GetBondTypeAsDouble()
         bonds[i][j] = order
         bonds[j][i] = order
+        bond_types.append((i, j, kind))
         if order == 2.0 and b.GetStereo() in _STEREO_SET:
             stereo_bonds.append(b.GetIdx())
     with_h = Chem.AddHs(heavy)
     ranks = list(Chem.CanonicalRankAtoms(with_h, breakTies=False, includeChirality=False))[: len(z)]
     rings = tuple(heavy.GetRingInfo().AtomRings())
+    saturated = [zi == 6 and not ar and all(o == 1.0 for o in b.values()) for zi, ar, b in zip(z, aromatic, bonds)]
     return Graph(heavy, index, z, nh, aromatic, bonds, rings, ranks, frozenset(z),
-                 _double_bond_stereo(heavy, stereo_bonds))
+                 _double_bond_stereo(heavy, stereo_bonds), charge, bond_types, saturated)
 
 
 def _double_bond_stereo(mol: Chem.Mol, bond_ids: list[int]) -> dict[tuple[int, int], tuple[int, int, bool]]:
@@ -551,7 +564,7 @@ def _stereocentres(g: Graph) -> list[int]:
     found = []
     for i, zi in enumerate(g.z):
         nbrs = list(g.bonds[i])
-        if zi == 6 and g.sp3(i) and g.nh[i] <= 1:
+        if zi == 6 and g.saturated[i] and g.nh[i] <= 1:
             if len({g.ranks[j] for j in nbrs}) == len(nbrs) == 4 - g.nh[i]:
                 found.append(i)
         elif zi == 16 and len(nbrs) == 3 and g.nh[i] == 0:
@@ -567,7 +580,7 @@ def _faced_rings(g: Graph) -> list[tuple[int, ...]]:
     found = []
     for ring in g.rings:
         for a in ring:
-            if not g.sp3(a):
+            if not g.saturated[a]:
                 continue
             exo = [j for j in g.bonds[a] if j not in ring]
             if (len(exo) == 1 and g.nh[a] == 1) or (len(exo) == 2 and g.ranks[exo[0]] != g.ranks[exo[1]]):

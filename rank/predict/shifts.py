@@ -18,7 +18,8 @@ quadrature with the ``sigma_extra`` of each row used (once per row) and of the
 solvent correction.
 
 Each table is read, and its SMARTS compiled, once per process; each table's
-patterns are matched at most once per molecule, when a class first needs them.
+patterns are matched at most once per molecule, when a class first needs them, and
+a pattern the molecule's bonds rule out is not matched at all (``rank.predict.screen``).
 
 >>> from rdkit import Chem
 >>> from rank.predict.perceive import perceive
@@ -49,6 +50,7 @@ from rdkit import Chem
 from ..errors import InputError
 from ..tables import read_table
 from .perceive import EXCHANGEABLE, FAMILIES, SP3_FAMILIES, ClassDraft, Graph
+from .screen import Screen
 
 if TYPE_CHECKING:
     from collections.abc import Callable, Hashable, Iterable
@@ -212,7 +214,9 @@ class SolventShift(NamedTuple):
 class ShiftTables(NamedTuple):
     """The shift tables, read once (:func:`shift_tables`).
 
-    ``solvent`` is keyed by (solvent id, target), the first row winning; ``sigma`` by family.
+    ``solvent`` is keyed by (solvent id, target), the first row winning; ``sigma`` by family;
+    ``screen`` skips the rows whose SMARTS cannot match a molecule.  The last fields pick out the
+    base, site and substituent rows of the alkene and benzene tables.
     """
 
     alkyl: tuple[AlkylIncrement, ...]
@@ -223,6 +227,12 @@ class ShiftTables(NamedTuple):
     special: tuple[SpecialRow, ...]
     solvent: dict[tuple[str, str], SolventShift]
     sigma: dict[str, float]
+    screen: Screen
+    alkene_base: AlkeneRow
+    alkene_sites: tuple[AlkeneRow, ...]
+    alkene_increments: tuple[AlkeneRow, ...]
+    benzene_base: BenzeneRow
+    benzene_increments: tuple[BenzeneRow, ...]
 
 
 _TEXT_COLUMNS = frozenset({"id", "smarts", "label", "group", "kind", "family"})
@@ -286,31 +296,39 @@ def shift_tables() -> ShiftTables:
         A bad SMARTS, a missing column, or a family of :data:`~rank.predict.perceive.FAMILIES`
         without a σ in ``rules/sigma.tsv``.
     """
-    return ShiftTables(
-        alkyl=_read_rows("shift_alkyl", AlkylIncrement),
-        alkyl_site=_read_rows("shift_alkyl_site", AlkylSiteRow),
-        alkene=_read_rows("shift_alkene", AlkeneRow),
-        benzene=_read_rows("shift_benzene", BenzeneRow),
-        heteroaromatic=_read_rows("shift_heteroaromatic", HeteroaromaticRow),
-        special=_read_rows("shift_special", SpecialRow),
-        solvent=_read_solvent_shifts(),
-        sigma=_read_sigma(),
-    )
+    rows = {
+        "alkyl": _read_rows("shift_alkyl", AlkylIncrement),
+        "alkyl_site": _read_rows("shift_alkyl_site", AlkylSiteRow),
+        "alkene": _read_rows("shift_alkene", AlkeneRow),
+        "benzene": _read_rows("shift_benzene", BenzeneRow),
+        "heteroaromatic": _read_rows("shift_heteroaromatic", HeteroaromaticRow),
+        "special": _read_rows("shift_special", SpecialRow),
+    }
+    screen = Screen([row.query for table in rows.values() for row in table])
+    alkene, benzene = rows["alkene"], rows["benzene"]
+    return ShiftTables(**rows, solvent=_read_solvent_shifts(), sigma=_read_sigma(), screen=screen,
+                       alkene_base=_base(alkene), alkene_sites=tuple(r for r in alkene if r.kind == "site"),
+                       alkene_increments=_increments(alkene), benzene_base=_base(benzene),
+                       benzene_increments=_increments(benzene))
 
 
 # -------------------------------------------------------------- matching ----
 
 
-def _first_matches(graph: Graph, rows: Iterable[_Row], key: Callable[[_Row, tuple[int, ...]], Hashable]) -> dict:
+def _first_matches(graph: Graph, rows: Iterable[_Row], key: Callable[[_Row, tuple[int, ...]], Hashable],
+                   screen: Screen, present: int) -> dict:
     """The first row (in table order) matching at each ``key(row, match)``, each pattern matched once.
 
-    Rows needing an element the molecule lacks are not matched.
+    Rows needing an element the molecule lacks, or a bond it lacks (``present``, from ``screen``), are
+    not matched.
     """
     found: dict = {}
+    needs, elements, mol = screen.needs, graph.elements, graph.mol
     for row in rows:
-        if not row.elements <= graph.elements:
+        need = needs[id(row.query)]
+        if present & need != need or not row.elements <= elements:
             continue
-        for m in graph.mol.GetSubstructMatches(row.query, uniquify=False, maxMatches=_MAX_MATCHES):
+        for m in mol.GetSubstructMatches(row.query, uniquify=False, maxMatches=_MAX_MATCHES):
             found.setdefault(key(row, m), row)
     return found
 
@@ -439,32 +457,41 @@ class _Matched:
         self.tables = tables
 
     @cached_property
+    def present(self) -> int:
+        """The screen's requirements the molecule meets."""
+        g = self.graph
+        return self.tables.screen.present(g.mol, g.z, g.aromatic, g.nh, g.charge, g.bond_types, g.rings)
+
+    def _first(self, rows: Iterable[_Row], key: Callable[[_Row, tuple[int, ...]], Hashable]) -> dict:
+        return _first_matches(self.graph, rows, key, self.tables.screen, self.present)
+
+    @cached_property
     def alkyl_increments(self) -> dict[tuple[int, int], AlkylIncrement]:
-        return _first_matches(self.graph, self.tables.alkyl, _on_bond)
+        return self._first(self.tables.alkyl, _on_bond)
 
     @cached_property
     def alkyl_sites(self) -> dict[tuple[str, int], AlkylSiteRow]:
-        return _first_matches(self.graph, self.tables.alkyl_site, _in_group)
+        return self._first(self.tables.alkyl_site, _in_group)
 
     @cached_property
     def alkene_increments(self) -> dict[tuple[int, int], AlkeneRow]:
-        return _first_matches(self.graph, _increments(self.tables.alkene), _on_bond)
+        return self._first(self.tables.alkene_increments, _on_bond)
 
     @cached_property
     def alkene_sites(self) -> dict[int, AlkeneRow]:
-        return _first_matches(self.graph, (r for r in self.tables.alkene if r.kind == "site"), _on_atom)
+        return self._first(self.tables.alkene_sites, _on_atom)
 
     @cached_property
     def ring_increments(self) -> dict[tuple[int, int], BenzeneRow]:
-        return _first_matches(self.graph, _increments(self.tables.benzene), _on_bond)
+        return self._first(self.tables.benzene_increments, _on_bond)
 
     @cached_property
     def heteroaromatic_parents(self) -> dict[int, HeteroaromaticRow]:
-        return _first_matches(self.graph, self.tables.heteroaromatic, _on_atom)
+        return self._first(self.tables.heteroaromatic, _on_atom)
 
     @cached_property
     def special(self) -> dict[int, SpecialRow]:
-        return _first_matches(self.graph, self.tables.special, _on_atom)
+        return self._first(self.tables.special, _on_atom)
 
 
 def _arithmetic(matched: _Matched, draft: ClassDraft) -> _Sum:
@@ -532,7 +559,7 @@ def _add_beta(matched: _Matched, carbon: int, family: str, terms: list[Term], ro
     graph = matched.graph
     attenuate = matched.alkyl_sites.get(("attenuate_beta", carbon))
     for neighbour in graph.bonds[carbon]:
-        if not graph.sp3(neighbour):
+        if not graph.saturated[neighbour]:
             continue
         counted = set()
         for substituent in graph.bonds[neighbour]:
@@ -556,7 +583,7 @@ def _alkene_sum(matched: _Matched, draft: ClassDraft) -> _Sum:
     """5.25 + Z_gem of the other group on the H's carbon + Z_cis and Z_trans across the bond."""
     graph, carbon = matched.graph, draft.sites[0].atom
     other = next(j for j, order in graph.bonds[carbon].items() if order == 2.0)
-    base = _base(matched.tables.alkene)
+    base = matched.tables.alkene_base
     terms, rows = [Term("alkene base", base.gem)], [base]
     for geminal in graph.bonds[carbon]:
         if geminal != other and (row := matched.alkene_increments.get((carbon, geminal))) is not None:
@@ -590,7 +617,7 @@ def _ring_sum(matched: _Matched, draft: ClassDraft) -> _Sum:
         parent = matched.heteroaromatic_parents[atom]
         terms, rows = [Term(parent.label, parent.shift)], [parent]
     else:
-        base = _base(matched.tables.benzene)
+        base = matched.tables.benzene_base
         terms, rows = [Term("benzene base", base.ortho)], [base]
     size, here = len(ring), ring.index(atom)
     for place, ring_atom in enumerate(ring):
