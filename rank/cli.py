@@ -287,7 +287,10 @@ def _run_identify(args: argparse.Namespace) -> int:
                                     "--report": ("report", "report.html")})
     if args.dept135 is not None and args.carbon is None:
         raise InputError("--dept135 types the lines of a 13C spectrum; give the 13C spectrum file with --carbon too")
+    from .formula import parse_formula
     from .spectra import read_peak_source
+
+    parse_formula(args.formula)  # a typing slip is refused before any spectrum is picked
 
     peaks = read_peak_source(args.peaks, "1H", args.solvent)
     carbon = None if args.carbon is None else read_peak_source(args.carbon, "13C", args.solvent, args.dept135)

@@ -87,3 +87,12 @@ def test_missing_bruker_folder_contents_are_refused(tmp_path, capsys):
     (tmp_path / "10").mkdir()
     (tmp_path / "10" / "fid").write_bytes(b"\0" * 64)
     assert "unprocessed FID" in one_line_error(*run_cli(["peaks", str(tmp_path / "10")], capsys))
+
+
+
+def test_a_bad_formula_is_refused_before_the_spectrum_is_picked(capsys, monkeypatch):
+    from rank.spectra import files
+
+    monkeypatch.setattr(files, "read_trace", lambda *a, **k: pytest.fail("the spectrum was read"))
+    argv = ["identify", "--formula", "C9H8Q4", "--peaks", str(ASPIRIN / "1h.dx")]
+    assert "unknown element" in one_line_error(*run_cli(argv, capsys))
