@@ -120,6 +120,18 @@ def test_affn_xydata_in_ppm(tmp_path):
     assert trace.intensity[600] == 1000 and trace.intensity[1500] == 400
 
 
+def test_compressed_xydata_sqz_dif_dup_with_the_y_check(tmp_path):
+    # 100 100 100 105 103 | 103 103 110 written as SQZ A00, DIF % (0) N (+5) k (-2) P (+7), DUP T (twice);
+    # the second line repeats the last value as its Y check (McDonald, Wilks 1988); YFACTOR 0.5
+    path = tmp_path / "asdf.jdx"
+    path.write_text("##TITLE=compressed\n##JCAMP-DX=5.01\n##DATA TYPE=NMR SPECTRUM\n##.OBSERVE FREQUENCY=400\n"
+                    "##.OBSERVE NUCLEUS=^1H\n##XUNITS=PPM\n##YUNITS=ARBITRARY UNITS\n##FIRSTX=7\n##LASTX=0\n"
+                    "##XFACTOR=1\n##YFACTOR=0.5\n##NPOINTS=8\n##XYDATA=(X++(Y..Y))\n7A00%TNk\n3A03%TP\n##END=\n")
+    trace = read_trace(path)
+    assert list(trace.ppm) == [7, 6, 5, 4, 3, 2, 1, 0]
+    assert list(trace.intensity) == [50, 50, 50, 52.5, 51.5, 51.5, 51.5, 55]
+
+
 def test_hz_axis_placed_by_the_shift_reference(tmp_path):
     # ##.SHIFT REFERENCE=(method, name, point, shift): point 1 lies at 12 ppm (Davies, Lampen 1993)
     path = _xydata_file(tmp_path / "hz.jdx", "##.SHIFT REFERENCE=(INTERNAL, TMS, 1, 12.0)\n", 5200.0, 0.0, "HZ")
@@ -182,6 +194,14 @@ def test_2d_is_refused(tmp_path):
     path = tmp_path / "hsqc.jdx"
     path.write_text("##TITLE=hsqc\n##JCAMP-DX=6.0\n##DATA TYPE=nD NMR SPECTRUM\n##NUM DIM=2\n"
                     "##.OBSERVE NUCLEUS=^1H\n##NTUPLES=nD NMR SPECTRUM\n##END NTUPLES=nD NMR SPECTRUM\n##END=\n")
+    with pytest.raises(InputError, match="2D"):
+        read_trace(path)
+
+
+def test_2d_ntuples_are_refused(tmp_path):
+    path = tmp_path / "hmbc.jdx"
+    path.write_text("##TITLE=hmbc\n##JCAMP-DX=6.0\n##DATA TYPE=NMR SPECTRUM\n##DATA CLASS=NTUPLES\n"
+                    "##NTUPLES=nD NMR SPECTRUM\n##.OBSERVE NUCLEUS=^1H\n##END NTUPLES=nD NMR SPECTRUM\n##END=\n")
     with pytest.raises(InputError, match="2D"):
         read_trace(path)
 

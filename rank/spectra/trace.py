@@ -148,7 +148,7 @@ def _check_jcamp_text(path: Path, text: str) -> None:
         raise InputError(f"{path.name} is not a JCAMP-DX file (no ##TITLE=)")
     if len(labels.get("END", [])) < len(labels["TITLE"]):
         raise InputError(f"{path.name} ends before its ##END=: the file is truncated; export it again")
-    kinds = [v.upper() for v in labels.get("DATATYPE", [])]
+    kinds = [v.upper() for v in labels.get("DATATYPE", []) + labels.get("NTUPLES", [])]
     dims = [v for v in labels.get("NUMDIM", []) if v.strip().isdigit() and int(v) > 1]
     if dims or any(re.search(r"\b(?:2D|ND|NMR\s*2D)\b", k) for k in kinds):
         raise InputError(f"{path.name} holds 2D data; give a 1D spectrum")
