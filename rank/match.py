@@ -283,61 +283,113 @@ def _group_count(shifts: list[float], gap: float) -> int:
     return 1 + sum(1 for a, b in pairwise(ordered) if b - a > gap)
 
 
+class _SignalCosts(NamedTuple):
+    """One signal's scores against each peak, and its row of the proton-by-slot cost matrix."""
+
+    residual: np.ndarray          # per peak: (nearest point of the peak - shift) / sigma
+    z2: np.ndarray                # per peak: min(residual ** 2, z_cap)
+    multiplicity: np.ndarray      # per peak: multiplicity penalty
+    coupling: np.ndarray          # per peak: coupling penalty
+    row: np.ndarray               # cost of one proton in each slot of a peak or of absence
+
+
 class _Costs(NamedTuple):
     """Signal-by-peak scores, and the proton-by-slot cost matrix the assignment minimises."""
 
-    residual: np.ndarray          # signals x peaks: (nearest point of the peak - shift) / sigma
-    z2: np.ndarray                # signals x peaks: min(residual ** 2, z_cap)
-    multiplicity: np.ndarray      # signals x peaks: multiplicity penalty
-    coupling: np.ndarray          # signals x peaks: coupling penalty
+    signals: list[_SignalCosts]   # per signal
     matrix: np.ndarray            # one row per proton, one column per slot of a peak or per absence
     rows: list[int]               # the signal of each row
     columns: list[int | None]     # the peak of each column (None: unobserved)
 
 
-def _cost_matrix(signals: Sequence[Signal], peaks: tuple[Peak, ...], counts: tuple[int, ...], missing: int,
-                 exchange_absent: bool, settings: Settings) -> _Costs:
+class _Memo:
+    """What was worked out against one observed peak list and settings: each signal's costs and each
+    signal list's :class:`Match` (both pure functions of what their keys hold)."""
+
+    def __init__(self, peaks: tuple[Peak, ...], settings: Settings) -> None:
+        self.peaks = peaks
+        self.settings = settings
+        self.signals: dict[tuple, _SignalCosts] = {}
+        self.matches: dict[tuple, Match] = {}
+
+
+_MEMO_LISTS = 8
+"""Peak lists whose memo is kept (the oldest is dropped)."""
+_MEMO_SIZE = 20_000
+"""Entries a memo's table holds before it is emptied, so that memory stays flat in long runs."""
+_MEMOS: dict[tuple[int, int], _Memo] = {}
+
+
+def _memo(peaks: tuple[Peak, ...], settings: Settings) -> _Memo:
+    """The memo of this peak list and settings (the memo holds both, so their ids are not reused)."""
+    key = (id(peaks), id(settings))
+    memo = _MEMOS.get(key)
+    if memo is None or memo.peaks is not peaks or memo.settings is not settings:
+        if len(_MEMOS) >= _MEMO_LISTS:
+            del _MEMOS[next(iter(_MEMOS))]
+        memo = _MEMOS[key] = _Memo(peaks, settings)
+    return memo
+
+
+def _remember(table: dict, key: tuple, value):
+    if len(table) >= _MEMO_SIZE:
+        table.clear()
+    table[key] = value
+    return value
+
+
+def _signal_costs(memo: _Memo, sg: Signal, capacity: list[int], absent: int, scale: int,
+                  exchange_absent: bool) -> _SignalCosts:
+    """The costs of one signal against the peaks, a pure function of the fields in its key."""
+    key = (sg.shift, sg.sigma, sg.n_h, sg.multiplicity, sg.j, sg.exchangeable, tuple(capacity), absent, scale,
+           exchange_absent)
+    found = memo.signals.get(key)
+    if found is not None:
+        return found
+    peaks, settings = memo.peaks, memo.settings
+    shift, sigma = np.array([[sg.shift]]), np.array([[sg.sigma]])
+    lows, highs, seen = _observed(peaks, settings.small_observed_j)
+    nearest = np.clip(shift, lows[None, :], highs[None, :])
+    residual = (nearest - shift) / sigma
+    z2 = np.minimum(residual ** 2, settings.z_cap)
+    rough = without_small_couplings(sg.multiplicity, sg.j, settings.hidden_j)
+    pen_mult = np.array([[_pattern_penalty(forms, sg.multiplicity, rough, sg.exchangeable) for forms in seen]])
+    pen_j = np.array([[coupling_penalty(pk.j, sg.j, settings.j_tolerance, settings.small_observed_j,
+                                        settings.j_step)
+                       if pk.j and sg.j else 0.0
+                       for pk in peaks]])
+    per_peak = z2 / scale + (settings.w_multiplicity * pen_mult + settings.w_coupling * pen_j) / float(sg.n_h)
+    if exchange_absent:
+        per_peak = per_peak + settings.observed_exchanged * sg.exchangeable
+    if sg.exchangeable:
+        absent_cost = 0.0 if exchange_absent else settings.absent_exchangeable
+    else:
+        absent_cost = settings.absent_other
+    row = np.concatenate([np.repeat(per_peak[0], capacity), np.full(absent, absent_cost)])
+    costs = _SignalCosts(residual[0], z2[0], pen_mult[0], pen_j[0], row)
+    return _remember(memo.signals, key, costs)
+
+
+def _cost_matrix(signals: Sequence[Signal], memo: _Memo, counts: tuple[int, ...], missing: int,
+                 exchange_absent: bool) -> _Costs:
     """Cost of placing one proton of each signal in each peak, or leaving it unobserved.
 
     A peak of count n offers n slots (every peak offers one per proton when there are no integrals);
-    ``missing`` slots (every proton's, without integrals) stand for unobserved protons.
+    ``missing`` slots (every proton's, without integrals) stand for unobserved protons.  Each entry is
+    the signal's shift score over the observed protons plus its multiplicity and coupling penalties
+    shared among its protons.
     """
     rows = [i for i, s in enumerate(signals) for _ in range(s.n_h)]
     n_h = len(rows)
     if not any(counts):
-        capacity, absent = [n_h] * len(peaks), n_h
+        capacity, absent = [n_h] * len(memo.peaks), n_h
     else:
         capacity, absent = list(counts), missing
     columns = [p for p, c in enumerate(capacity) for _ in range(c)] + [None] * absent
-
-    n_sig, n_peaks = len(signals), len(peaks)
-    shifts = np.array([sg.shift for sg in signals])
-    sigmas = np.array([sg.sigma for sg in signals])
-    lows, highs, seen = _observed(peaks, settings.small_observed_j)
-    nearest = np.clip(shifts[:, None], lows[None, :], highs[None, :])
-    residual = (nearest - shifts[:, None]) / sigmas[:, None]
-    z2 = np.minimum(residual ** 2, settings.z_cap)
-    pen_mult = np.array([[_pattern_penalty(forms, sg.multiplicity,
-                                           without_small_couplings(sg.multiplicity, sg.j, settings.hidden_j),
-                                           sg.exchangeable)
-                          for forms in seen] for sg in signals]).reshape(n_sig, n_peaks)
-    pen_j = np.array([[coupling_penalty(pk.j, sg.j, settings.j_tolerance, settings.small_observed_j,
-                                        settings.j_step)
-                       if pk.j and sg.j else 0.0
-                       for pk in peaks] for sg in signals]).reshape(n_sig, n_peaks)
-    exchangeable = np.array([sg.exchangeable for sg in signals])
-    n_per = np.array([sg.n_h for sg in signals], dtype=float)
-
-    # signal-by-peak cost of one proton, then one row per proton and one column per slot
-    per_peak = (z2 / max(n_h - missing, 1)
-                + (settings.w_multiplicity * pen_mult + settings.w_coupling * pen_j) / n_per[:, None])
-    if exchange_absent:
-        per_peak = per_peak + settings.observed_exchanged * exchangeable[:, None]
-    absent_cost = np.where(exchangeable, 0.0 if exchange_absent else settings.absent_exchangeable,
-                           settings.absent_other)
-    by_signal = np.hstack([np.repeat(per_peak, capacity, axis=1),
-                           np.repeat(absent_cost[:, None], absent, axis=1)])
-    return _Costs(residual, z2, pen_mult, pen_j, by_signal[rows], rows, columns)
+    scale = max(n_h - missing, 1)
+    per_signal = [_signal_costs(memo, sg, capacity, absent, scale, exchange_absent) for sg in signals]
+    matrix = np.array([per_signal[i].row for i in rows]).reshape(n_h, len(columns))
+    return _Costs(per_signal, matrix, rows, columns)
 
 
 def _decode(costs: _Costs) -> dict[int, dict[int | None, int]]:
@@ -367,15 +419,16 @@ def _score(signals: Sequence[Signal], peaks: tuple[Peak, ...], placed: dict[int,
             if p is None:
                 shift_sum += k * (0.0 if s.exchangeable else settings.z_cap)
             else:
-                shift_sum += k * costs.z2[i, p]
+                shift_sum += k * costs.signals[i].z2[p]
         if main is None:
             pairings.append(Pairing(i, None, protons, None, s.shift, 0.0, 0.0, 0.0))
             continue
         members.setdefault(main, []).append(i)
-        mult += costs.multiplicity[i, main]
-        coup += costs.coupling[i, main]
-        pairings.append(Pairing(i, main, protons, peaks[main].shift, s.shift, float(costs.residual[i, main]),
-                                float(costs.multiplicity[i, main]), float(costs.coupling[i, main])))
+        own = costs.signals[i]
+        mult += own.multiplicity[main]
+        coup += own.coupling[main]
+        pairings.append(Pairing(i, main, protons, peaks[main].shift, s.shift, float(own.residual[main]),
+                                float(own.multiplicity[main]), float(own.coupling[main])))
     mult += sum(settings.coupled_singlet for p, held in members.items()
                 if peaks[p].multiplicity == "s" and _mutually_coupled(signals, held, settings.coupled_singlet_min_j))
     mult += sum(settings.lone_singlet_multiplet for p, held in members.items()
@@ -432,11 +485,18 @@ def match(signals: Sequence[Signal], peaks: tuple[Peak, ...], counts: tuple[int,
     H. W. Kuhn, "The Hungarian method for the assignment problem", Naval Res. Logist. Q. 1955,
     2, 83. doi:10.1002/nav.3800020109
     """
-    costs = _cost_matrix(signals, peaks, counts, missing, exchange_absent, settings)
+    memo = _memo(peaks, settings)
+    key = (counts, missing, exchange_absent,
+           tuple((s.shift, s.n_h, s.sigma, s.multiplicity, s.j, s.exchangeable, s.diastereotopic, s.partners)
+                 for s in signals))
+    found = memo.matches.get(key)
+    if found is not None:
+        return found
+    costs = _cost_matrix(signals, memo, counts, missing, exchange_absent)
     placed = _decode(costs)
     n_h = len(costs.rows)
     observed_h = max(n_h, 1) if not any(counts) else max(n_h - missing, 1)
-    return _score(signals, peaks, placed, costs, observed_h, settings)
+    return _remember(memo.matches, key, _score(signals, peaks, placed, costs, observed_h, settings))
 
 
 # ------------------------------------------------------------------ 13C ----
