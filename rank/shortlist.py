@@ -168,15 +168,18 @@ class Shortlist:
     tracked_misfit: float | None = None
     misfits: list[float] = field(default_factory=list)
     estimated: float | None = None
-    """The estimated structures of the generated space (Knuth estimates of its runs, after the limits);
-    None for a candidates file.  With ``complete`` False, ``explored / estimated`` is about the share scored."""
+    """The structures the generator was estimated to build (Knuth estimates of its runs, after planning);
+    None for a candidates file."""
+    built: int = 0
+    """The structures the generator built (before the filters, the patterns and the limits checked on built
+    structures); ``built / estimated`` is about the share of the space searched."""
 
     @property
     def coverage(self) -> float | None:
-        """About what share of the estimated space was scored (1 when complete); None without an estimate."""
+        """About what share of the generated space was searched (1 when complete); None without an estimate."""
         if self.complete:
             return 1.0
-        return None if not self.estimated else min(1.0, self.explored / self.estimated)
+        return None if not self.estimated else min(1.0, self.built / self.estimated)
 
     def candidates_file_note(self) -> str | None:
         """One line on what a candidates file needed changed or left out beyond unreadable
@@ -493,6 +496,7 @@ class _Tally:
     timed_out: bool
     rejected: Counter = field(default_factory=Counter)
     filtered: Counter = field(default_factory=Counter)
+    built: int = 0
 
 
 _job: _Job | None = None
@@ -548,7 +552,7 @@ def _run_unit(unit: _Unit) -> _Tally:
     if stream is None:
         return _Tally(best.items(), log_norm, scored, Counter(), misfits, tracked, timed_out)
     return _Tally(best.items(), log_norm, scored, stream.hinted, misfits, tracked, timed_out,
-                  stream.rejected, stream.removed)
+                  stream.rejected, stream.removed, stream.explored)
 
 
 @dataclass
@@ -689,6 +693,7 @@ class Identifier:
         try:
             for done, tally in enumerate(self._tallies(job, units), 1):
                 result.explored += tally.scored
+                result.built += tally.built
                 log_norm = _logaddexp(log_norm, tally.log_norm)
                 for s in tally.best:
                     best.add(s)
@@ -759,8 +764,8 @@ def _progress_line(done: int, units: int, result: Shortlist, seconds: float) -> 
     """Work units done, candidates scored of the estimated space, time so far and an estimate of the time left."""
     line = f"peakrank: {done}/{units} work units, {result.explored:,} candidates scored"
     if result.estimated:
-        share = min(1.0, result.explored / result.estimated)
-        line += f" of about {result.estimated:,.0f} ({share:.0%})"
+        share = min(1.0, result.built / result.estimated)
+        line += f", {share:.0%} of about {result.estimated:,.0f} structures searched"
         if 0 < share < 1 and seconds > 1:
             line += f", about {_duration(seconds * (1 - share) / share)} left"
     return f"{line}, {seconds:.0f} s   "

@@ -92,6 +92,8 @@ def _check_json_document(doc: dict, formula: str) -> None:
     assert doc["formula"] == formula
     assert isinstance(doc["explored"], int) and doc["explored"] >= len(doc["candidates"]) > 0
     assert doc["complete"] is True
+    # beyond the contract: the generated space's estimate and the share searched (None for a candidates file)
+    assert doc["coverage"] in (1.0, None) and (doc["estimated"] is None or doc["estimated"] > 0)
     misfits = [c["misfit"] for c in doc["candidates"]]
     assert misfits == sorted(misfits)
     for c in doc["candidates"]:
