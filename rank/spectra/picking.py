@@ -64,9 +64,11 @@ class PickingSettings:
     mask_dilate_hz: float
     baseline_blocks: int
     baseline_iterations: int
+    line_merge_hz: float
     group_gap_hz: float
     adjacent_ratio_max: float
     integrate_widths: float
+    integrate_broad_widths: float
     integrate_min_hz: float
     broad_factor: float
     broad_min_hz: float
@@ -259,15 +261,17 @@ def _reference(lines: list[_Line], solvent: Solvent | None, nucleus: str, noise:
 
 
 def _solvent_line(lines: list[_Line], solvent: Solvent, value: float, carbon: bool, freq: float,
-                  s: PickingSettings) -> _Line | None:
+                  s: PickingSettings, window: float | None = None) -> _Line | None:
     """The residual solvent line nearest its table value.
 
     1H: among the lines of at least ``solvent_min_fraction`` of the tallest in the window, an isolated one
-    (no line of comparable height a coupling away) is preferred, so that a line of a compound multiplet near
-    7.26 is not taken for CHCl3 when the solvent line stands apart. 13C: the centre line of the solvent
+    (no line of comparable height a coupling away) is preferred; else one that is not a line of a group
+    reading as a first-order multiplet, so that a line of a compound multiplet near 7.26 is not taken for
+    CHCl3. 13C: the centre line of the solvent
     multiplet, with outer lines J(C,D) / frequency away on both sides when the table gives J(C,D).
     """
-    window = s.carbon_solvent_window if carbon else s.solvent_window
+    if window is None:
+        window = s.carbon_solvent_window if carbon else s.solvent_window
     near = sorted((ln for ln in lines if abs(ln.ppm - value) <= window), key=lambda ln: abs(ln.ppm - value))
     if carbon and near and solvent.carbon_j_cd and solvent.carbon_j_cd[0] > 0:
         spacing = solvent.carbon_j_cd[0] / freq
@@ -280,8 +284,18 @@ def _solvent_line(lines: list[_Line], solvent: Solvent, value: float, carbon: bo
         near = [ln for ln in near if ln.height >= s.solvent_min_fraction * top]
         isolated = [ln for ln in near if not any(
             o is not ln and _joined(*sorted((o, ln), key=lambda x: x.ppm), freq, s) for o in lines)]
-        near = isolated or near
+        near = isolated or [ln for ln in near if not _in_first_order_multiplet(ln, lines, freq, s)]
     return near[0] if near else None
+
+
+def _in_first_order_multiplet(line: _Line, lines: list[_Line], freq: float, s: PickingSettings) -> bool:
+    """The line is one of a group of lines that reads as a first-order multiplet with it, or a small line set
+    aside beside a multiplet."""
+    group = next((g for g in _group(lines, freq, s) if any(x is line for x in g)), None)
+    if group is None:
+        return True
+    return len(group) > 1 and first_order(tuple(x.ppm * freq for x in group), tuple(x.height for x in group),
+                                          tuple(x.width_hz for x in group), s) is not None
 
 
 def _nearest(lines: list[_Line], value: float, window: float) -> _Line | None:
@@ -344,7 +358,15 @@ def _chain(lines: list[_Line], freq: float, s: PickingSettings) -> tuple[list[li
         elif ln.height < last.height:
             aside.append(ln)
         else:
-            groups.append([ln])
+            group = groups[-1]
+            while group and group[-1].height * s.adjacent_ratio_max < ln.height:
+                aside.append(group.pop())
+            if not group:
+                groups.pop()
+            if group and (ln.ppm - group[-1].ppm) * freq <= s.group_gap_hz and _joined(group[-1], ln, freq, s):
+                group.append(ln)
+            else:
+                groups.append([ln])
     return groups, aside
 
 
@@ -356,12 +378,16 @@ def _joined(a: _Line, b: _Line, freq: float, s: PickingSettings) -> bool:
     return max(a.height, b.height) <= s.adjacent_ratio_max * min(a.height, b.height)
 
 
-def _integrate(groups: list[list[_Line]], p: _Prepared, freq: float, s: PickingSettings) -> list[_Signal]:
-    """Integrate each group from its outer lines out to a few line widths, the regions of neighbours meeting
-    at the lowest point of the trace between them."""
+def _integrate(groups: list[list[_Line]], p: _Prepared, freq: float, broad_hz: float, s: PickingSettings
+               ) -> list[_Signal]:
+    """Integrate each group from its outer lines out to a few line widths (fewer for a broad line, whose wide
+    region would gather baseline errors), the regions of neighbours meeting at the lowest point of the trace
+    between them."""
     bounds = []
     for g in groups:
-        ext = max(s.integrate_min_hz, s.integrate_widths * max(ln.width_hz for ln in g)) / freq
+        width = max(ln.width_hz for ln in g)
+        widths = s.integrate_broad_widths if width > broad_hz else s.integrate_widths
+        ext = max(s.integrate_min_hz, widths * width) / freq
         bounds.append([g[0].ppm - ext, g[-1].ppm + ext])
     for k in range(len(groups) - 1):
         if bounds[k][1] > bounds[k + 1][0]:
@@ -399,13 +425,13 @@ def first_order(positions_hz: tuple[float, ...], heights: tuple[float, ...], wid
     """Read a first-order multiplet from its lines: the name (d, t, dd, dt, qd, ...), J per letter (largest
     first, Hz, 0.1) and the centre (Hz); None when no first-order pattern places every line.
 
-    Mirror lines are averaged (removing the roof effect), intensities (heights, else heights times widths, as
-    overlapping lines broaden) are counted in units of the outer line (each count rounded down or up when both
-    lie within ``unit_tolerance``), and
-    the couplings are read in turn as the distance from the first line to the first line not yet explained by
-    the couplings found so far (T. R. Hoye, P. R. Hanson, J. R. Vyvyan, J. Org. Chem. 1994, 59, 4096). The
+    Mirror lines are averaged (removing the roof effect), intensities are counted in units of the outer line
+    (the three whole numbers nearest each within ``unit_tolerance`` are tried, closest first), and the
+    couplings are read in turn as the distance from the first line to the first line not yet explained by the
+    couplings found so far (T. R. Hoye, P. R. Hanson, J. R. Vyvyan, J. Org. Chem. 1994, 59, 4096). The
     couplings are then refined by least squares over every line. When the lines do not fit, small extra lines
-    (long-range couplings, impurities) are left out in turn, up to ``extra_line_fraction`` of the intensity.
+    (long-range couplings, impurities) inside the pattern, or tiny ones outside it, are left out in turn, up to
+    ``extra_line_fraction`` of the intensity; last, heights times widths stand for the intensities.
 
     >>> first_order((0.0, 7.0, 14.0, 21.0), (1.0, 3.1, 2.9, 1.0), (1.0,) * 4)
     ('q', (7.0,), 10.5)
@@ -419,15 +445,18 @@ def first_order(positions_hz: tuple[float, ...], heights: tuple[float, ...], wid
     f, h = f[order], h[order]
     w = np.asarray(widths_hz, dtype=float)[order]
     tol = max(s.position_tolerance_hz, s.position_tolerance_widths * float(np.median(w)))
-    fit = _first_order_lines(f, h, tol, s) or _first_order_lines(f, h * w, tol, s)
+    fit = _first_order_lines(f, h, tol, s)
     for fraction in sorted({x for x in (h / h.max()) if x < 0.5}):
         if fit is not None:
             break
         keep = h > fraction * h.max()
         if h[~keep].sum() > s.extra_line_fraction * h.sum() or keep.sum() < 2:
             break
+        inner = (f > f[keep].min()) & (f < f[keep].max())
+        if not (inner | (h * s.adjacent_ratio_max < h[keep].min()))[~keep].all():
+            continue    # an outer line of fair size continues the pattern: it is no extra line
         fit = _first_order_lines(f[keep], h[keep], tol, s)
-    return fit
+    return fit or _first_order_lines(f, h * w, tol, s)
 
 
 def _first_order_lines(f: np.ndarray, h: np.ndarray, tol: float, s: PickingSettings
@@ -458,8 +487,8 @@ def _unit_counts(units: np.ndarray, tolerance: float):
     half = (units.size + 1) // 2
     options = []
     for u in units[:half]:
-        near = sorted({c for c in (math.floor(u), math.ceil(u)) if c >= 1 and abs(u - c) <= tolerance * c},
-                      key=lambda c: abs(u - c))
+        span = range(max(1, math.floor(u / (1 + tolerance))), math.ceil(u / (1 - tolerance)) + 1)
+        near = sorted((c for c in span if abs(u - c) <= tolerance * c), key=lambda c: abs(u - c))[:3]
         if not near:
             return
         options.append(near)
@@ -581,18 +610,18 @@ def _lorentzian(ppm: np.ndarray, line: _Line, freq: float) -> np.ndarray:
     return line.height / (1 + ((ppm - line.ppm) / half) ** 2)
 
 
-def _reference_lines(lines: list[_Line], solvent: Solvent | None, broad_hz: float
+def _reference_lines(lines: list[_Line], solvent: Solvent | None, broad_hz: float, freq: float, s: PickingSettings
                      ) -> tuple[list[_Line], list[tuple[_Line, str]]]:
     """Take out the sharp single lines of TMS and of a singlet residual solvent before grouping, so that a
     compound multiplet they fall into is read without them."""
-    targets = [(0.0, observation_rule("tms_tolerance"), "TMS reference")]
+    sharp = [ln for ln in lines if ln.width_hz < broad_hz]
+    tolerance = observation_rule("tms_tolerance")
+    near_zero = [ln for ln in sharp if abs(ln.ppm) <= tolerance]
+    taken = [(min(near_zero, key=lambda ln: abs(ln.ppm)), "TMS reference")] if near_zero else []
     if solvent is not None and solvent.residual_multiplicity == "s":
-        targets.append((solvent.residual, solvent.tolerance_residual, f"residual {solvent.id}"))
-    taken = []
-    for value, tolerance, reason in targets:
-        sharp = [ln for ln in lines if ln.width_hz < broad_hz and abs(ln.ppm - value) <= tolerance]
-        if sharp:
-            taken.append((min(sharp, key=lambda ln: abs(ln.ppm - value)), reason))
+        found = _solvent_line(sharp, solvent, solvent.residual, False, freq, s, solvent.tolerance_residual)
+        if found is not None:
+            taken.append((found, f"residual {solvent.id}"))
     gone = {id(ln) for ln, _ in taken}
     return [ln for ln in lines if id(ln) not in gone], taken
 
@@ -626,13 +655,13 @@ def pick_proton(trace: Trace, solvent: str | None = None, settings: PickingSetti
     chosen = _solvent_of(trace, solvent)
     freq = trace.frequency_mhz
     prepared = _prepare(trace, s)
-    lines = _lines(prepared, s.noise_k, s)
+    lines = _merged(_lines(prepared, s.noise_k, s), freq, s.line_merge_hz)
     correction, ref_note, not_tms = _reference(lines, chosen, "1H", prepared.noise, freq, s)
     prepared = replace(prepared, ppm=prepared.ppm + correction)
     lines = [replace(ln, ppm=ln.ppm + correction) for ln in lines if ln is not not_tms]
     typical = float(np.median([ln.width_hz for ln in lines])) if lines else 1.0
     broad_hz = max(s.broad_min_hz, s.broad_factor * typical)
-    lines, taken = _reference_lines(lines, chosen, broad_hz)
+    lines, taken = _reference_lines(lines, chosen, broad_hz, freq, s)
     y = prepared.y.copy()
     for ln, _ in taken:
         y -= _lorentzian(prepared.ppm, ln, freq)
@@ -641,7 +670,8 @@ def pick_proton(trace: Trace, solvent: str | None = None, settings: PickingSetti
         taken.append((replace(not_tms, ppm=not_tms.ppm + correction), NOT_TMS))
     dropped = [Dropped(make_peak(round(ln.ppm, 3), None, None, "s", ()), reason) for ln, reason in taken]
     inside = [ln for ln in lines if _in_range(ln.ppm)]
-    signals = [_name(sig, typical, freq, s) for sig in _integrate(_group(inside, freq, s), prepared, freq, s)]
+    groups = _group(inside, freq, s)
+    signals = [_name(sig, typical, freq, s) for sig in _integrate(groups, prepared, freq, broad_hz, s)]
     signals, more, unit = _drop_signals(signals, chosen, freq, s)
     dropped += more
     signals, coupling_notes = _strongly_coupled(signals, freq, s)
@@ -664,8 +694,8 @@ def _drop_signals(signals: list[_Signal], solvent: Solvent | None, freq: float, 
                   ) -> tuple[list[_Signal], list[Dropped], float]:
     """Drop 13C satellites, spinning sidebands, residual solvent (multiplet solvents), minor signals and water.
 
-    Returns the kept signals, the dropped ones and the integral taken as one unit (the smallest signal of at
-    least ``unit_fraction`` of the main signal).
+    Returns the kept signals, the dropped ones and the integral taken as one unit (:func:`_unit` over the
+    signals of at least ``unit_fraction`` of the main signal).
     """
     reasons = _satellite_or_sideband(signals, freq, s)
     for i, sig in enumerate(signals):
@@ -678,8 +708,8 @@ def _drop_signals(signals: list[_Signal], solvent: Solvent | None, freq: float, 
     for i, sig in enumerate(signals):
         if i not in reasons and sig.integral < s.minor_fraction * main:
             reasons[i] = f"minor signal ({100 * sig.integral / main:.1f} % of the main signal): impurity or artefact"
-    unit = min((sig.integral for i, sig in enumerate(signals)
-                if i not in reasons and sig.integral >= s.unit_fraction * main), default=1.0)
+    unit = _unit([sig.integral for i, sig in enumerate(signals)
+                  if i not in reasons and sig.integral >= s.unit_fraction * main])
     for i, sig in enumerate(signals):
         if i not in reasons and solvent is not None and sig.multiplicity in ("s", "br s"):
             off = abs(sig.peak_ppm - solvent.water)
@@ -690,6 +720,17 @@ def _drop_signals(signals: list[_Signal], solvent: Solvent | None, freq: float, 
                               f"{sig.integral / unit:.2f} of the smallest signal)")
     dropped = [Dropped(_peak(signals[i], unit), reason) for i, reason in sorted(reasons.items())]
     return [sig for i, sig in enumerate(signals) if i not in reasons], dropped, unit
+
+
+def _unit(integrals: list[float], rounds: int = 5) -> float:
+    """The integral of one H: start from the smallest signal, read every signal as a whole number of units,
+    and take the median integral per unit, a few times over (robust to one poorly integrated signal)."""
+    if not integrals:
+        return 1.0
+    unit = min(integrals)
+    for _ in range(rounds):
+        unit = float(np.median([x / max(1, round(x / unit)) for x in integrals]))
+    return unit
 
 
 def _main_integral(signals: list[_Signal]) -> float:
@@ -747,7 +788,7 @@ def pick_carbon(trace: Trace, solvent: str | None = None, dept135: Trace | None 
     chosen = _solvent_of(trace, solvent)
     freq = trace.frequency_mhz
     prepared = _prepare(trace, s)
-    lines = _merged(_lines(prepared, s.carbon_noise_k, s), freq, s)
+    lines = _merged(_lines(prepared, s.carbon_noise_k, s), freq, s.carbon_merge_hz)
     correction, ref_note, not_tms = _reference(lines, chosen, "13C", prepared.noise, freq, s)
     lines = [replace(ln, ppm=ln.ppm + correction) for ln in lines if ln is not not_tms]
     kept, dropped = [], []
@@ -775,11 +816,11 @@ def pick_carbon(trace: Trace, solvent: str | None = None, dept135: Trace | None 
     return PickedCarbon(spectrum, tuple(dropped), tuple(notes), _shifted(trace, correction))
 
 
-def _merged(lines: list[_Line], freq: float, s: PickingSettings) -> list[_Line]:
-    """One line per peak: maxima closer than ``carbon_merge_hz`` are the tallest of them."""
+def _merged(lines: list[_Line], freq: float, within_hz: float) -> list[_Line]:
+    """One line per peak: maxima closer than ``within_hz`` (a flat or split top) are the tallest of them."""
     out: list[_Line] = []
     for ln in sorted(lines, key=lambda ln: ln.ppm):
-        if out and (ln.ppm - out[-1].ppm) * freq <= s.carbon_merge_hz:
+        if out and (ln.ppm - out[-1].ppm) * freq <= within_hz:
             if ln.height > out[-1].height:
                 out[-1] = ln
         else:
