@@ -8,8 +8,10 @@ one core.  Prints candidates per second of this process's CPU time (steadier tha
 machine; ``--repeat N`` keeps the least of N passes) per case and in all, with and without 13C.
 
 The fingerprint is every candidate's misfit as the ranking rounds it (6 decimals, ``None`` for a
-candidate the tables cannot predict) and the top 10 with ties, as the ranking keeps them.  ``--save FILE``
-writes it (JSON), ``--check FILE`` compares and exits 1 on any difference, naming the first ones.
+candidate the tables cannot predict) and the top 10 with ties, as the ranking keeps them, with the
+candidates' SMILES.  ``--save FILE`` writes it (JSON), ``--check FILE`` scores the file's candidates
+(so that a change to the generator does not change what is compared), compares and exits 1 on any
+difference, naming the first ones.
 ``--profile`` runs cProfile over the scoring and prints the heaviest entries, cumulative and own time.
 
 Where the time goes (microseconds per candidate, timed stage by stage outside cProfile on 4 x 1,000
@@ -91,6 +93,7 @@ def run(jobs, profiler: cProfile.Profile | None, repeat: int = 1) -> tuple[dict,
         fingerprint[key] = {
             "misfits": [None if r is None else r.misfit for r in results],
             "top": [[s.smiles, s.misfit] for s in best.items()],
+            "smiles": smiles,
         }
         n, t = times[mode]
         times[mode] = (n + len(smiles), t + seconds)
@@ -133,18 +136,24 @@ def main(argv: list[str]) -> int:
 
     wanted = args.cases.split(",")
     by_id = {c.id: c for c in read_cases(str(DATA), "all")}
+    saved = json.loads(Path(args.check).read_text(encoding="utf-8")) if args.check else {}
     jobs = []
     for case_id in wanted:
         case = by_id[case_id]
         formula = parse_formula(case.formula)
-        smiles = candidates(case.formula, args.count)
         spectrum = read_peaks(case.peaks)
+        generated = None
         for mode in ("1h", "13c"):
             if args.only and mode != args.only:
                 continue
+            key = f"{case.formula} {mode} {case_id[:14]}"
+            smiles = saved.get(key, {}).get("smiles")
+            if smiles is None:
+                generated = generated or candidates(case.formula, args.count)
+                smiles = generated
             carbon = read_carbon_peaks(case.carbon) if mode == "13c" else None
             observation, _ = observe(formula, spectrum, case.solvent, carbon=carbon)
-            jobs.append((f"{case.formula} {mode} {case_id[:14]}", mode, observation, smiles))
+            jobs.append((key, mode, observation, smiles))
 
     profiler = cProfile.Profile() if args.profile else None
     fingerprint, times = run(jobs, profiler, args.repeat)
@@ -159,7 +168,7 @@ def main(argv: list[str]) -> int:
         Path(args.save).write_text(json.dumps(fingerprint), encoding="utf-8")
         print(f"fingerprint written to {args.save}")
     if args.check:
-        differences = compare(fingerprint, json.loads(Path(args.check).read_text(encoding="utf-8")))
+        differences = compare(fingerprint, saved)
         for line in differences:
             print(line)
         print(f"fingerprint {'differs from' if differences else 'identical to'} {args.check}")
