@@ -95,7 +95,10 @@ class PickingSettings:
     sideband_ratio_max: float
     sideband_tolerance_hz: float
     minor_fraction: float
-    unit_fraction: float
+    unit_budget: float
+    unit_tolerance_h: float
+    max_h_per_signal: int
+    minor_unit_fraction: float
     water_window_broad: float
     water_max_h: float
     carbon_noise_k: float
@@ -692,10 +695,10 @@ def _in_range(ppm: float) -> bool:
 
 def _drop_signals(signals: list[_Signal], solvent: Solvent | None, freq: float, s: PickingSettings
                   ) -> tuple[list[_Signal], list[Dropped], float]:
-    """Drop 13C satellites, spinning sidebands, residual solvent (multiplet solvents), minor signals and water.
+    """Drop 13C satellites, spinning sidebands, residual solvent (multiplet solvents), minor signals, water, and
+    signals holding less than ``minor_unit_fraction`` of one H.
 
-    Returns the kept signals, the dropped ones and the integral taken as one unit (:func:`_unit` over the
-    signals of at least ``unit_fraction`` of the main signal).
+    Returns the kept signals, the dropped ones and the integral of one H (:func:`_unit`).
     """
     reasons = _satellite_or_sideband(signals, freq, s)
     for i, sig in enumerate(signals):
@@ -708,8 +711,7 @@ def _drop_signals(signals: list[_Signal], solvent: Solvent | None, freq: float, 
     for i, sig in enumerate(signals):
         if i not in reasons and sig.integral < s.minor_fraction * main:
             reasons[i] = f"minor signal ({100 * sig.integral / main:.1f} % of the main signal): impurity or artefact"
-    unit = _unit([sig.integral for i, sig in enumerate(signals)
-                  if i not in reasons and sig.integral >= s.unit_fraction * main])
+    unit = _unit([sig.integral for i, sig in enumerate(signals) if i not in reasons], s)
     for i, sig in enumerate(signals):
         if i not in reasons and solvent is not None and sig.multiplicity in ("s", "br s"):
             off = abs(sig.peak_ppm - solvent.water)
@@ -718,19 +720,27 @@ def _drop_signals(signals: list[_Signal], solvent: Solvent | None, freq: float, 
             elif sig.multiplicity == "br s" and off <= s.water_window_broad and sig.integral < s.water_max_h * unit:
                 reasons[i] = (f"water in {solvent.id}? (broad, {off:.2f} ppm from {solvent.water:.2f}, "
                               f"{sig.integral / unit:.2f} of the smallest signal)")
+    for i, sig in enumerate(signals):
+        if i not in reasons and sig.integral < s.minor_unit_fraction * unit:
+            reasons[i] = f"minor signal ({sig.integral / unit:.2f} of one H unit): impurity or artefact"
     dropped = [Dropped(_peak(signals[i], unit), reason) for i, reason in sorted(reasons.items())]
     return [sig for i, sig in enumerate(signals) if i not in reasons], dropped, unit
 
 
-def _unit(integrals: list[float], rounds: int = 5) -> float:
-    """The integral of one H: start from the smallest signal, read every signal as a whole number of units,
-    and take the median integral per unit, a few times over (robust to one poorly integrated signal)."""
-    if not integrals:
+def _unit(integrals: list[float], s: PickingSettings) -> float:
+    """The integral of one H: the largest unit that reads the signals as whole numbers of H (each within
+    ``unit_tolerance_h`` per H) except at most ``unit_budget`` of the total (impurities), refined as the
+    median integral per H of the signals it reads."""
+    values = [x for x in integrals if x > 0]
+    if not values:
         return 1.0
-    unit = min(integrals)
-    for _ in range(rounds):
-        unit = float(np.median([x / max(1, round(x / unit)) for x in integrals]))
-    return unit
+    total = sum(values)
+    for unit in sorted({x / n for x in values for n in range(1, s.max_h_per_signal + 1)}, reverse=True):
+        counts = [round(x / unit) for x in values]
+        read = [(x, n) for x, n in zip(values, counts) if n >= 1 and abs(x / unit - n) <= s.unit_tolerance_h * n]
+        if total - sum(x for x, _ in read) <= s.unit_budget * total:
+            return float(np.median([x / n for x, n in read]))
+    return min(values)
 
 
 def _main_integral(signals: list[_Signal]) -> float:
