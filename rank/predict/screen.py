@@ -8,7 +8,9 @@ rings; a bond query of :data:`BOND_QUERIES` reads the bond's type and whether it
 whether a query atom or bond holds is worked out once per such description and kept, a molecule is
 described once, and only the patterns whose every requirement is met somewhere in it are searched.
 A query atom or bond with other primitives (a recursive ``$(...)``) is taken as met.  A screened-out
-pattern has no match: the screen changes how much is searched, never what is found.
+pattern has no match: the screen changes how much is searched, never what is found.  A pattern of one
+atom, or of two atoms and their bond, all screened, is not searched at all: its matches are the atoms
+or bonds of the molecule that meet its requirement (:meth:`Screen.matches`).
 
 This is the screening step of substructure search (J. M. Barnard, "Substructure searching methods:
 old and new", J. Chem. Inf. Comput. Sci. 1993, 33, 532, doi:10.1021/ci00014a001), with exact
@@ -19,22 +21,25 @@ features in place of hashed fingerprint bits.
 >>> screen = Screen([nitrile, ester])
 >>> mol = Chem.MolFromSmiles("CCOC(C)=O")
 >>> rings = mol.GetRingInfo().AtomRings()
->>> present = screen.present(mol, [6, 6, 8, 6, 6, 8], [False] * 6, [3, 2, 0, 0, 3, 0], [0] * 6,
-...                          [(0, 1, Chem.BondType.SINGLE), (1, 2, Chem.BondType.SINGLE),
-...                           (2, 3, Chem.BondType.SINGLE), (3, 4, Chem.BondType.SINGLE),
-...                           (3, 5, Chem.BondType.DOUBLE)], rings)
->>> screen.passes(nitrile, present), screen.passes(ester, present)
+>>> features = screen.features(mol, [6, 6, 8, 6, 6, 8], [False] * 6, [3, 2, 0, 0, 3, 0], [0] * 6,
+...                            [(0, 1, Chem.BondType.SINGLE), (1, 2, Chem.BondType.SINGLE),
+...                             (2, 3, Chem.BondType.SINGLE), (3, 4, Chem.BondType.SINGLE),
+...                             (3, 5, Chem.BondType.DOUBLE)], rings)
+>>> screen.passes(nitrile, features.present), screen.passes(ester, features.present)
 (False, True)
+>>> screen.matches(Chem.MolFromSmarts("[CX4]-[OX2]"), features) is None   # not one of its patterns
+True
 """
 
 from __future__ import annotations
 
 import re
 from collections.abc import Sequence
+from typing import NamedTuple
 
 from rdkit import Chem
 
-__all__ = ["ATOM_QUERIES", "BOND_QUERIES", "Screen"]
+__all__ = ["ATOM_QUERIES", "BOND_QUERIES", "Features", "Screen"]
 
 ATOM_QUERIES = frozenset({
     "AtomAnd", "AtomOr", "AtomNull", "AtomType", "AtomAtomicNum", "AtomIsAromatic", "AtomTotalDegree",
@@ -50,6 +55,14 @@ def _known(query: Chem.Atom | Chem.Bond, known: frozenset[str]) -> bool:
     return set(re.findall(r"^\s*(\w+)", query.DescribeQuery(), re.MULTILINE)) <= known
 
 
+class Features(NamedTuple):
+    """The requirements one molecule meets, as bits: in all, per atom (lone atoms), per directed bond."""
+
+    present: int
+    atoms: list[int]
+    bonds: list[tuple[int, int, int]]   # (atom, atom, requirements met with the first atom first)
+
+
 class Screen:
     """Necessary conditions for each of a set of SMARTS patterns to match a molecule.
 
@@ -61,7 +74,8 @@ class Screen:
     Notes
     -----
     Each requirement is one bit: a pattern bond (its two atom queries and bond query) or a lone
-    pattern atom.  ``present`` sets the bits a molecule meets; a pattern passes when all its bits are set.
+    pattern atom.  :meth:`features` sets the bits a molecule meets; a pattern passes when all its bits
+    are set.
     """
 
     def __init__(self, queries: Sequence[Chem.Mol]) -> None:
@@ -69,6 +83,7 @@ class Screen:
         self._second: list[Chem.Atom | None] = []
         self._bond: list[Chem.Bond | None] = []
         self._queries = list(queries)
+        self._simple: dict[int, tuple[int, bool]] = {}
         self.needs = {id(query): self._add(query) for query in self._queries}
         """The requirements of each pattern, as bits, by ``id`` of the pattern."""
         self._atoms: dict[tuple, tuple[int, int, int]] = {}
@@ -85,6 +100,11 @@ class Screen:
         for a, atom in zip(query.GetAtoms(), atoms):
             if atom is not None and a.GetDegree() == 0:
                 need |= self._requirement(atom, None, None)
+        if None not in atoms and query.GetNumAtoms() == 1:
+            self._simple[id(query)] = (need.bit_length() - 1, False)
+        elif None not in atoms and query.GetNumAtoms() == 2 and query.GetNumBonds() == 1 \
+                and _known(query.GetBondWithIdx(0), BOND_QUERIES):
+            self._simple[id(query)] = (need.bit_length() - 1, query.GetBondWithIdx(0).GetBeginAtomIdx() == 1)
         return need
 
     def _requirement(self, first: Chem.Atom | None, bond: Chem.Bond | None, second: Chem.Atom | None) -> int:
@@ -98,10 +118,23 @@ class Screen:
         need = self.needs[id(query)]
         return present & need == need
 
-    def present(self, mol: Chem.Mol, z: Sequence[int], aromatic: Sequence[bool], nh: Sequence[int],
-                charge: Sequence[int], bonds: Sequence[tuple[int, int, Chem.BondType]],
-                rings: Sequence[Sequence[int]]) -> int:
-        """The requirements a molecule meets, as bits.
+    def matches(self, query: Chem.Mol, features: Features) -> list[tuple[int, ...]] | None:
+        """The matches of a one-atom or one-bond pattern of the screen, as ``GetSubstructMatches`` with
+        ``uniquify=False`` finds them (in another order); None for other patterns."""
+        simple = self._simple.get(id(query))
+        if simple is None:
+            return None
+        bit, reverse = simple
+        if not features.present >> bit & 1:
+            return []
+        if query.GetNumAtoms() == 1:
+            return [(i,) for i, mask in enumerate(features.atoms) if mask >> bit & 1]
+        return [(j, i) if reverse else (i, j) for i, j, mask in features.bonds if mask >> bit & 1]
+
+    def features(self, mol: Chem.Mol, z: Sequence[int], aromatic: Sequence[bool], nh: Sequence[int],
+                 charge: Sequence[int], bonds: Sequence[tuple[int, int, Chem.BondType]],
+                 rings: Sequence[Sequence[int]]) -> Features:
+        """The requirements a molecule meets.
 
         Parameters
         ----------
@@ -125,21 +158,25 @@ class Screen:
         for i, j, _ in bonds:
             degree[i] += 1
             degree[j] += 1
-        found, atoms = 0, []
+        found, atoms, alone, directed = 0, [], [], []
         for i in range(n):
             key = (z[i], aromatic[i], degree[i] + nh[i], nh[i], charge[i], smallest[i], count[i])
             masks = self._atoms.get(key)
             if masks is None:
                 masks = self._atoms[key] = self._atom_masks(mol.GetAtomWithIdx(i))
             atoms.append(masks)
+            alone.append(masks[2])
             found |= masks[2]
         for i, j, kind in bonds:
             key = (kind, (i, j) in ring_bonds)
             mask = self._bonds.get(key)
             if mask is None:
                 mask = self._bonds[key] = self._bond_mask(mol.GetBondBetweenAtoms(i, j))
-            found |= mask & (atoms[i][0] & atoms[j][1] | atoms[j][0] & atoms[i][1])
-        return found
+            forward, backward = mask & atoms[i][0] & atoms[j][1], mask & atoms[j][0] & atoms[i][1]
+            directed.append((i, j, forward))
+            directed.append((j, i, backward))
+            found |= forward | backward
+        return Features(found, alone, directed)
 
     def _atom_masks(self, atom: Chem.Atom) -> tuple[int, int, int]:
         """Requirements whose first, whose second, and whose lone query atom the atom satisfies."""

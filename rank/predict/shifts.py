@@ -50,10 +50,10 @@ from rdkit import Chem
 from ..errors import InputError
 from ..tables import read_table
 from .perceive import EXCHANGEABLE, FAMILIES, SP3_FAMILIES, ClassDraft, Graph
-from .screen import Screen
+from .screen import Features, Screen
 
 if TYPE_CHECKING:
-    from collections.abc import Callable, Hashable, Iterable
+    from collections.abc import Callable, Iterable, Sequence
 
     from ..spectra import Solvent
 
@@ -315,37 +315,42 @@ def shift_tables() -> ShiftTables:
 # -------------------------------------------------------------- matching ----
 
 
-def _first_matches(graph: Graph, rows: Iterable[_Row], key: Callable[[_Row, tuple[int, ...]], Hashable],
-                   screen: Screen, present: int) -> dict:
-    """The first row (in table order) matching at each ``key(row, match)``, each pattern matched once.
+def _first_matches(graph: Graph, rows: Iterable[_Row], keys: Callable[[_Row, Sequence[tuple[int, ...]]], list],
+                   screen: Screen, features: Features) -> dict:
+    """The first row (in table order) matching at each key, ``keys(row, matches)`` giving the keys of a
+    row's matches; each pattern matched once.
 
-    Rows needing an element the molecule lacks, or a bond it lacks (``present``, from ``screen``), are
+    Rows needing an element the molecule lacks, or a bond it lacks (``features``, from ``screen``), are
     not matched.
     """
     found: dict = {}
-    needs, elements, mol = screen.needs, graph.elements, graph.mol
+    needs, present, elements, mol = screen.needs, features.present, graph.elements, graph.mol
     for row in rows:
         need = needs[id(row.query)]
         if present & need != need or not row.elements <= elements:
             continue
-        for m in mol.GetSubstructMatches(row.query, uniquify=False, maxMatches=_MAX_MATCHES):
-            found.setdefault(key(row, m), row)
+        matches = screen.matches(row.query, features)
+        if matches is None:
+            matches = mol.GetSubstructMatches(row.query, uniquify=False, maxMatches=_MAX_MATCHES)
+        if matches:
+            earlier, found = found, dict.fromkeys(keys(row, matches), row)
+            found.update(earlier)   # an earlier row keeps its keys
     return found
 
 
-def _on_bond(row: _Row, m: tuple[int, ...]) -> tuple[int, int]:
-    """Key of a substituent row: (H-bearing atom, first substituent atom), the pattern's first two atoms."""
-    return m[0], m[1]
+def _on_bond(row: _Row, matches: Sequence[tuple[int, ...]]) -> list[tuple[int, int]]:
+    """Keys of a substituent row: (H-bearing atom, first substituent atom), the pattern's first two atoms."""
+    return [m[:2] for m in matches]
 
 
-def _on_atom(row: _Row, m: tuple[int, ...]) -> int:
-    """Key of a site row: the H-bearing atom, the pattern's first atom."""
-    return m[0]
+def _on_atom(row: _Row, matches: Sequence[tuple[int, ...]]) -> list[int]:
+    """Keys of a site row: the H-bearing atom, the pattern's first atom."""
+    return [m[0] for m in matches]
 
 
-def _in_group(row: AlkylSiteRow, m: tuple[int, ...]) -> tuple[str, int]:
-    """Key of a ``shift_alkyl_site`` row: (its group, the H-bearing atom)."""
-    return row.group, m[0]
+def _in_group(row: AlkylSiteRow, matches: Sequence[tuple[int, ...]]) -> list[tuple[str, int]]:
+    """Keys of a ``shift_alkyl_site`` row: (its group, the H-bearing atom)."""
+    return [(row.group, m[0]) for m in matches]
 
 
 def _increments(rows: tuple[_Row, ...]) -> tuple[_Row, ...]:
@@ -457,13 +462,13 @@ class _Matched:
         self.tables = tables
 
     @cached_property
-    def present(self) -> int:
+    def features(self) -> Features:
         """The screen's requirements the molecule meets."""
         g = self.graph
-        return self.tables.screen.present(g.mol, g.z, g.aromatic, g.nh, g.charge, g.bond_types, g.rings)
+        return self.tables.screen.features(g.mol, g.z, g.aromatic, g.nh, g.charge, g.bond_types, g.rings)
 
-    def _first(self, rows: Iterable[_Row], key: Callable[[_Row, tuple[int, ...]], Hashable]) -> dict:
-        return _first_matches(self.graph, rows, key, self.tables.screen, self.present)
+    def _first(self, rows: Iterable[_Row], keys: Callable[[_Row, Sequence[tuple[int, ...]]], list]) -> dict:
+        return _first_matches(self.graph, rows, keys, self.tables.screen, self.features)
 
     @cached_property
     def alkyl_increments(self) -> dict[tuple[int, int], AlkylIncrement]:
