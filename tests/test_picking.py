@@ -281,3 +281,34 @@ def test_real_aspirin_ring_and_methyl_integrals_and_the_broad_acid_h():
     assert all(abs(p.integral - round(p.integral)) <= 0.1 * round(p.integral) for p in sharp)
     assert [p.multiplicity for p in sharp] == ["dd", "td", "td", "dd", "s"]
     assert [p.multiplicity for p in result.spectrum.peaks if p.integral >= 0.5 and p not in sharp] == ["br s"]
+
+
+def _carbon_classes(mol_path: Path) -> list[int]:
+    """H count of each symmetry class of carbon (RDKit canonical ranks without tie breaking)."""
+    from rdkit import Chem
+
+    mol = Chem.MolFromMolFile(str(mol_path))
+    ranks = list(Chem.CanonicalRankAtoms(mol, breakTies=False))
+    classes = {ranks[a.GetIdx()]: a.GetTotalNumHs() for a in mol.GetAtoms() if a.GetSymbol() == "C"}
+    return sorted(classes.values())
+
+
+@pytest.mark.parametrize("cas", ["141-32-2", "50-78-2", "620-71-3", "623-70-1"])
+def test_real_13c_one_line_per_carbon_class(cas):
+    # real files (tests/data/spectra) and their structure.mol: solvent triplet, grease and artefacts dropped
+    from rank.spectra.trace import read_trace
+
+    folder = SPECTRA / cas
+    dept = read_trace(folder / "dept135.dx") if (folder / "dept135.dx").exists() else None
+    result = pick_carbon(read_trace(folder / "13c.dx"), dept135=dept)
+    expected = _carbon_classes(folder / "structure.mol")
+    assert len(result.spectrum.peaks) == len(expected)
+    if dept is not None:
+        # DEPT-135 types: every typed line right; untyped only where an up line may be CH or CH3
+        typed = sorted(p.n_h for p in result.spectrum.peaks if p.n_h is not None)
+        untyped = [p for p in result.spectrum.peaks if p.n_h is None]
+        assert all(20 <= p.shift <= 65 for p in untyped)
+        remaining = list(expected)
+        for n in typed:
+            remaining.remove(n)
+        assert all(n in (1, 3) for n in remaining) and len(remaining) == len(untyped)

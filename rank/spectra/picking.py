@@ -104,6 +104,7 @@ class PickingSettings:
     carbon_noise_k: float
     carbon_merge_hz: float
     carbon_minor_fraction: float
+    carbon_broad_factor: float
     dept_tolerance_ppm: float
     dept_noise_k: float
     dept_min_fraction: float
@@ -805,10 +806,13 @@ def pick_carbon(trace: Trace, solvent: str | None = None, dept135: Trace | None 
     if not_tms is not None:
         dropped.append(Dropped(CarbonPeak(round(not_tms.ppm + correction, 2)), NOT_TMS))
     median = float(np.median([ln.height for ln in lines])) if lines else 0.0
+    typical = float(np.median([ln.width_hz for ln in lines])) if lines else 0.0
     for ln in lines:
         reason = _carbon_drop_reason(ln, chosen, freq)
         if reason is None and ln.height < s.carbon_minor_fraction * median:
             reason = f"minor line ({100 * ln.height / median:.1f} % of the median line): impurity or artefact"
+        elif reason is None and ln.width_hz > s.carbon_broad_factor * typical:
+            reason = f"broad bump ({ln.width_hz:.0f} Hz wide, lines about {typical:.1f} Hz): baseline or artefact"
         if reason:
             dropped.append(Dropped(CarbonPeak(round(ln.ppm, 2)), reason))
         else:
