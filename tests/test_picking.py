@@ -312,3 +312,20 @@ def test_real_13c_one_line_per_carbon_class(cas):
         for n in typed:
             remaining.remove(n)
         assert all(n in (1, 3) for n in remaining) and len(remaining) == len(untyped)
+
+
+def test_spinning_sidebands_are_dropped():
+    # a symmetric pair at ±25 Hz, 0.8 % each, around a big singlet (spinning at 25 Hz; common practice)
+    bands = [(2.10 + k * 25.0 / FIELD, 6 * 0.008) for k in (-1, 1)]
+    result = pick_proton(_render([(2.10, 6.0), (3.70, 2.0)] + bands, seed=11))
+    assert [round(p.shift, 2) for p in result.spectrum.peaks] == [3.7, 2.1]
+    assert sum("spinning sideband" in d.reason for d in result.dropped) == 2
+
+
+def test_dmso_residual_quintet_is_dropped():
+    # CHD2 residual of DMSO-d6 at 2.50, 1:2:3:2:1 with J(H,D) 1.9 Hz (solvent table; from memory)
+    quintet = [(2.50 + k * 1.9 / FIELD, 0.3 * w / 9) for k, w in zip(range(-2, 3), (1, 2, 3, 2, 1))]
+    trace = _render(ETHYL + quintet, seed=5)
+    result = pick_proton(Trace(trace.ppm, trace.intensity, "1H", FIELD, "DMSO-d6"))
+    assert [round(p.shift, 2) for p in result.spectrum.peaks] == [4.12, 1.26]
+    assert any(d.reason == "residual DMSO-d6" for d in result.dropped)

@@ -85,6 +85,7 @@ class PickingSettings:
     tms_window: float
     solvent_window: float
     solvent_min_fraction: float
+    residual_span_hz: float
     carbon_tms_window: float
     carbon_solvent_window: float
     reference_k: float
@@ -705,8 +706,10 @@ def _drop_signals(signals: list[_Signal], solvent: Solvent | None, freq: float, 
     for i, sig in enumerate(signals):
         if i in reasons or solvent is None:
             continue
-        if sig.multiplicity in ("s", "br s", solvent.residual_multiplicity) \
-                and abs(sig.peak_ppm - solvent.residual) <= solvent.tolerance_residual:
+        span_hz = (sig.lines[-1].ppm - sig.lines[0].ppm) * freq
+        solvent_like = sig.multiplicity in ("s", "br s", solvent.residual_multiplicity) or (
+            solvent.residual_multiplicity != "s" and span_hz <= s.residual_span_hz)
+        if solvent_like and abs(sig.peak_ppm - solvent.residual) <= solvent.tolerance_residual:
             reasons[i] = f"residual {solvent.id}"
     main = _main_integral([sig for i, sig in enumerate(signals) if i not in reasons])
     for i, sig in enumerate(signals):
