@@ -32,6 +32,10 @@ EXAMPLES: dict[str, tuple[list[str], list[str]]] = {
         ["c1cc#c[nH]1"],  # 2,3-didehydropyrrole (aryne-type)
         ["N#Cc1ccco1"],  # 2-furonitrile: the triple bond is outside the ring
     ),
+    "three_ring_aromatic": (
+        ["c1ccc2c(c1)C2"],  # cyclopropabenzene
+        ["c1ccc2c(c1)CC2"],  # benzocyclobutene
+    ),
     "small_ring_alkyne": (
         ["C1#CCCCC1"],  # cyclohexyne
         ["C#CC1CC1"],  # ethynylcyclopropane: the triple bond is outside the ring
