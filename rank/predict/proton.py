@@ -21,7 +21,6 @@ The references of the arithmetic are in ``rank.predict.shifts`` and ``rank.predi
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from dataclasses import dataclass
 
@@ -182,17 +181,21 @@ class Predictor:
                          for shift, proton_class, draft in zip(predicted, perception.classes, perception.drafts)]
         centres = [p.shift for p in predicted]
         multiplets = MultipletPredictor(perception, self._solvent, float(self.field_mhz))
+        patterns = [multiplets.predict(index, centres) for index in range(len(predicted))]
+        order = sorted(range(len(predicted)), key=lambda k: -centres[k])   # highest first, ties in class order
+        new_index = {old: new for new, old in enumerate(order)}
         signals = []
-        for index, (proton_class, shift) in enumerate(zip(perception.classes, predicted)):
-            multiplet = multiplets.predict(index, centres)
+        for k in order:
+            proton_class, shift, multiplet = perception.classes[k], predicted[k], patterns[k]
             signals.append(Signal(
                 shift=shift.shift, n_h=proton_class.n_h, multiplicity=multiplet.multiplicity, j=multiplet.j,
                 family=proton_class.family, exchangeable=proton_class.exchangeable, broad=multiplet.broad,
-                atoms=proton_class.atoms, sigma=shift.sigma, terms=shift.terms, partners=multiplet.couplings,
+                atoms=proton_class.atoms, sigma=shift.sigma, terms=shift.terms,
+                partners=tuple(Coupling(new_index[c.signal], c.n_h, c.j, c.kind) for c in multiplet.couplings),
                 diastereotopic=proton_class.diastereotopic, shift_range=shift.shift_range,
                 note=_exchange_note(proton_class, self._solvent), rows=shift.rows,
             ))
-        return _highest_shift_first(signals)
+        return signals
 
 
 def _corrected(shift: PredictedShift, mol: Chem.Mol, atom: int) -> PredictedShift:
@@ -214,15 +217,6 @@ def _exchange_note(proton_class: ProtonClass, solvent: Solvent) -> str:
     if solvent.exchange:
         return f"exchanges with {solvent.id}; expected absent"
     return "exchangeable; position varies, may be broad or absent"
-
-
-def _highest_shift_first(signals: list[Signal]) -> list[Signal]:
-    """The signals sorted by shift, highest first (ties in class order), partners renumbered."""
-    order = sorted(range(len(signals)), key=lambda k: -signals[k].shift)
-    new_index = {old: new for new, old in enumerate(order)}
-    return [dataclasses.replace(signals[k], partners=tuple(c._replace(signal=new_index[c.signal])
-                                                           for c in signals[k].partners))
-            for k in order]
 
 
 def signal_table(signals: list[Signal]) -> str:
