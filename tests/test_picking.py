@@ -329,3 +329,12 @@ def test_dmso_residual_quintet_is_dropped():
     result = pick_proton(Trace(trace.ppm, trace.intensity, "1H", FIELD, "DMSO-d6"))
     assert [round(p.shift, 2) for p in result.spectrum.peaks] == [4.12, 1.26]
     assert any(d.reason == "residual DMSO-d6" for d in result.dropped)
+
+
+def test_ab_pair_read_as_two_doublets_is_flagged_strongly_coupled():
+    # nmrsim AB, Δν/J = 4: each half looks like a roofed doublet; the pair shares J and is second order
+    result = pick_proton(_render(ETHYL + _ab(3.50, 3.60, 10.0), seed=13))
+    near = [p for p in result.spectrum.peaks if 3.4 <= p.shift <= 3.7]
+    assert len(near) == 2 and all(p.multiplicity == "m" for p in near)
+    assert any(n.startswith("strongly coupled") for n in result.notes)
+    assert any(n.startswith("spin system") for n in result.notes)
