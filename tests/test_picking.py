@@ -338,3 +338,12 @@ def test_ab_pair_read_as_two_doublets_is_flagged_strongly_coupled():
     assert len(near) == 2 and all(p.multiplicity == "m" for p in near)
     assert any(n.startswith("strongly coupled") for n in result.notes)
     assert any(n.startswith("spin system") for n in result.notes)
+
+
+def test_pick_carbon_refuses_a_1h_trace_and_a_1h_dept():
+    carbon = _carbon_trace(CARBONS + CDCL3)
+    proton = _render(ETHYL)
+    with pytest.raises(InputError):
+        pick_carbon(proton)
+    with pytest.raises(InputError):
+        pick_carbon(carbon, dept135=proton)

@@ -42,14 +42,15 @@ from .peaks import (
     Dropped,
     Peak,
     Spectrum,
+    coupling_groups,
     make_carbon_peak,
     make_peak,
     observation_rule,
 )
-from .solvents import Solvent, find_solvent
+from .solvents import DEFAULT_SOLVENT, Solvent, find_solvent
 from .trace import Trace
 
-__all__ = ["Picked", "PickedCarbon", "PickingSettings", "pick_carbon", "pick_proton", "picking_settings"]
+__all__ = ["Picked", "PickedCarbon", "PickingSettings", "first_order", "pick_carbon", "pick_proton", "picking_settings"]
 
 
 @dataclass(frozen=True)
@@ -811,7 +812,7 @@ def pick_carbon(trace: Trace, solvent: str | None = None, dept135: Trace | None 
     median = float(np.median([ln.height for ln in lines])) if lines else 0.0
     typical = float(np.median([ln.width_hz for ln in lines])) if lines else 0.0
     for ln in lines:
-        reason = _carbon_drop_reason(ln, chosen, freq)
+        reason = _carbon_drop_reason(ln, chosen, freq, s)
         if reason is None and ln.height < s.carbon_minor_fraction * median:
             reason = f"minor line ({100 * ln.height / median:.1f} % of the median line): impurity or artefact"
         elif reason is None and ln.width_hz > s.carbon_broad_factor * typical:
@@ -845,19 +846,23 @@ def _merged(lines: list[_Line], freq: float, within_hz: float) -> list[_Line]:
     return out
 
 
-def _carbon_drop_reason(ln: _Line, solvent: Solvent | None, freq: float) -> str | None:
-    """TMS, a line of the solvent's 13C multiplet (centre and outer lines J(C,D) apart), or out of range."""
+def _carbon_drop_reason(ln: _Line, solvent: Solvent | None, freq: float, s: PickingSettings) -> str | None:
+    """TMS, a line of the solvent's 13C multiplet (outer lines J(C,D) / frequency from its centre, within
+    twice ``carbon_merge_hz``; the centre within the solvent table's tolerance), or out of range."""
     if not CARBON_SHIFT_RANGE[0] <= ln.ppm <= CARBON_SHIFT_RANGE[1]:
         return f"outside {CARBON_SHIFT_RANGE[0]:g} to {CARBON_SHIFT_RANGE[1]:g} ppm"
-    if solvent is None:
-        return "TMS reference" if abs(ln.ppm) <= 0.25 else None
-    if abs(ln.ppm - solvent.tms) <= solvent.tolerance_carbon:
+    tolerance = (solvent or find_solvent(DEFAULT_SOLVENT)).tolerance_carbon
+    if abs(ln.ppm) <= tolerance:
         return "TMS reference"
+    if solvent is None:
+        return None
+    outer_tolerance = 2 * s.carbon_merge_hz / freq
     for value, pattern, j in zip(solvent.carbon, solvent.carbon_multiplicity, solvent.carbon_j_cd):
-        half = ({"s": 1, "t": 3, "quint": 5, "sept": 7}.get(pattern, 1) - 1) // 2
-        for k in range(-half, half + 1):
-            if abs(ln.ppm - value - k * j / freq) <= (solvent.tolerance_carbon if k == 0 else 2.0 / freq + 0.02):
-                return f"residual {solvent.id}" + (" (outer line)" if k else "")
+        half = sum(coupling_groups(pattern) or ()) // 2
+        if any(abs(ln.ppm - value - k * j / freq) <= outer_tolerance for k in range(-half, half + 1) if k):
+            return f"residual {solvent.id} (outer line)"
+        if abs(ln.ppm - value) <= tolerance:
+            return f"residual {solvent.id}"
     return None
 
 
