@@ -172,7 +172,8 @@ def _add_bench(sub) -> None:
     ben.add_argument("--workers", type=_positive_int, default=None, metavar="N", help=_WORKERS_HELP)
     ben.add_argument("--budget", type=_seconds, metavar="SECONDS", help="time limit per compound")
     ben.add_argument("--ceiling", type=_positive_int, default=None, metavar="N",
-                     help="refuse compounds whose isomer space is estimated above N (default 2,000,000)")
+                     help="without --budget, refuse compounds whose isomer space is estimated above N "
+                          "(default 2,000,000)")
     ben.add_argument("--fit", action="store_true",
                      help="fit the confidence temperature on this set and print it with the calibration")
     ben.add_argument("--part", choices=("fit", "held-out", "all"), default="all",  # rank.bench.PARTS
@@ -256,12 +257,15 @@ def _add_identify(sub) -> None:
     ide.add_argument("--forbid", action="append", default=[], metavar="SMARTS",
                      help="candidates must not match (repeatable)")
     ide.add_argument("--no-hints", action="store_true",
-                     help="do not narrow the isomer space with hints read from the peaks or limits from the 13C list")
+                     help="do not narrow the isomer space with hints and limits read from the 1H and 13C lists")
     ide.add_argument("--keep-all-peaks", action="store_true", help="do not drop solvent, water and TMS signals")
     ide.add_argument("--workers", type=_positive_int, default=None, metavar="N", help=_WORKERS_HELP)
-    ide.add_argument("--budget", type=_seconds, metavar="SECONDS", help="stop scoring after this long and say so")
+    ide.add_argument("--budget", type=_seconds, metavar="SECONDS",
+                     help="stop scoring after this long and say how much was searched; any space is then searched, "
+                          "the likeliest hydrogen distributions first")
     ide.add_argument("--ceiling", type=_positive_int, default=None, metavar="N",
-                     help="refuse isomer spaces estimated above N structures (default 2,000,000; 0 = no limit)")
+                     help="without --budget, refuse isomer spaces estimated above N structures (default 2,000,000; "
+                          "0 = no limit)")
     ide.add_argument("--json", metavar="PATH", help="write the short list as JSON ('-' for stdout, nothing else there)")
     ide.add_argument("--csv", metavar="PATH", help="write the short list as CSV ('-' for stdout, nothing else there)")
     ide.add_argument("--report", metavar="PATH.html",
@@ -294,9 +298,9 @@ def _run_identify(args: argparse.Namespace) -> int:
 
     peaks = read_peak_source(args.peaks, "1H", args.solvent)
     carbon = None if args.carbon is None else read_peak_source(args.carbon, "13C", args.solvent, args.dept135)
-    _print_notes(peaks, carbon)
     result = identifier.identify(args.formula, peaks.spectrum, args.candidates, carbon and carbon.spectrum)
     result.dropped = peaks.dropped + (carbon.dropped if carbon else ()) + result.dropped
+    _print_notes(peaks, carbon)  # after the run, so that a refusal stays one line
 
     def render(option: str) -> str:
         if option == "--json":
