@@ -572,8 +572,9 @@ class Identifier:
         (the command line's default is :func:`available_cores`).
         The result does not depend on it: the work is cut into the same units
         whatever the number of workers, and merged in unit order.
-    budget : seconds after which the run stops and says it is incomplete.
-    ceiling : the generator's limit on the estimated isomer space.
+    budget : seconds after which the run stops and says it is incomplete (and how much it searched).
+    ceiling : the generator's limit on the estimated isomer space of a run without a budget; a budgeted
+        run searches any space, the likeliest hydrogen distributions first.
     progress : print a progress line on stderr on long runs.
     track : a known answer's SMILES; the run then records every misfit and the
         answer's own (benchmarks).
@@ -657,14 +658,18 @@ class Identifier:
         return result
 
     def _generated_units(self, result: Shortlist) -> tuple[list[_Unit], Counter]:
-        """The generator's work units, once the space is known to be under the ceiling; and the
-        hydrogen distributions a one-atom pattern ruled out (pattern -> count)."""
+        """The generator's work units, nearest the list's hydrogen profile first; and the hydrogen
+        distributions a one-atom pattern ruled out (pattern -> count).
+
+        Without a time budget the space must be under the ceiling; with one, a larger space is searched
+        in that order until the budget is spent, and the result says how much of it was searched."""
         stream = IsomerStream(result.formula, require=self.require, forbid=self.forbid, ceiling=self.ceiling,
                               hints=result.hints, limits=result.limits)
-        try:
-            stream.check_ceiling()
-        except SpaceTooLarge as exc:
-            raise exc.with_advice(_SUSPECTS_ADVICE if exc.hopeless else _NARROW_ADVICE) from None
+        if self.budget is None:
+            try:
+                stream.check_ceiling()
+            except SpaceTooLarge as exc:
+                raise exc.with_advice(_SUSPECTS_ADVICE if exc.hopeless else _NARROW_ADVICE) from None
         plan = stream.plan()
         units = []
         for types in plan.runs:
@@ -757,7 +762,8 @@ class Identifier:
 
 _SUSPECTS_ADVICE = ("give the suspects as --candidates FILE (SMILES lines or SDF, e.g. the known structures "
                     "of this formula from a database)")
-_NARROW_ADVICE = ("narrow it with --require/--forbid, score a list of suspects with --candidates FILE, "
+_NARROW_ADVICE = ("narrow it with --require/--forbid or a 13C list (--carbon), score a list of suspects with "
+                  "--candidates FILE, give a time budget (--budget SECONDS) to search the likeliest part first, "
                   "or pass --ceiling 0 to lift the limit")
 
 

@@ -193,6 +193,14 @@ def test_a_spent_budget_says_the_list_is_incomplete():
     assert 0 <= cut.coverage < 1 and cut.built <= full.built
 
 
+def test_a_budget_searches_a_space_beyond_the_ceiling_instead_of_refusing():
+    # the same run refused without a budget is searched, likeliest first, and says how much it searched
+    with pytest.raises(InputError, match="--budget SECONDS"):
+        _run("toluene", top=3, use_hints=False, ceiling=10)
+    cut = _run("toluene", top=3, use_hints=False, ceiling=10, budget=30)
+    assert cut.complete and cut.explored > 10 and cut.coverage == 1.0
+
+
 def test_a_complete_run_searches_about_its_estimate():
     full = _run("toluene", top=3, use_hints=False)
     # Knuth's estimator is unbiased (Knuth, Math. Comp. 1975, 29, 121); with fixed probes it lands near the count
