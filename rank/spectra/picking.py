@@ -27,6 +27,7 @@ from dataclasses import dataclass, fields, replace
 from functools import cache
 from itertools import combinations, pairwise, product
 
+import networkx as nx
 import numpy as np
 from scipy.ndimage import maximum_filter1d
 from scipy.signal import find_peaks, peak_widths
@@ -562,7 +563,6 @@ def _pattern_name(js: list[float], s: PickingSettings) -> tuple[str, tuple[float
 def _strongly_coupled(signals: list[_Signal], freq: float, s: PickingSettings) -> tuple[list[_Signal], list[str]]:
     """Spin systems as connected components of signals sharing a coupling (networkx); signals of a pair whose
     shift difference in Hz is below ``strong_coupling_ratio`` times J are second order and become ``m``."""
-    import networkx as nx
 
     graph = nx.Graph()
     graph.add_nodes_from(range(len(signals)))
