@@ -47,6 +47,7 @@ from ..errors import InputError
 from ..spectra import DEFAULT_SOLVENT, find_solvent
 from ..tables import read_table
 from .environment import EnvironmentGraph, find_correction
+from .screen import Features, Screen
 from .shifts import Term
 
 __all__ = ["CARBON_FAMILIES", "CARBON_RADIUS", "AdditiveFeatures", "CarbonPredictor", "CarbonSignal",
@@ -158,6 +159,7 @@ class _Tables(NamedTuple):
     functional: list[_Row]
     functional_substituent: list[_Row]
     sigma: dict[str, tuple[float, float]]
+    screen: Screen                         # over every row's SMARTS
 
 
 def _by_kind(rows: list[_Row], column: str = "kind") -> dict[str, list[_Row]]:
@@ -170,17 +172,19 @@ def _by_kind(rows: list[_Row], column: str = "kind") -> dict[str, list[_Row]]:
 @cache
 def _tables() -> _Tables:
     sigma = {r["family"]: (float(r["sigma"]), float(r["sigma_environment"])) for r in read_table("carbon_sigma")}
-    return _Tables(
-        sp3=_by_kind(_rows("carbon_sp3", "key")),
-        sp3_substituent=_rows("carbon_sp3_substituent"),
-        benzene=_by_kind(_rows("carbon_benzene")),
-        heteroaromatic=_rows("carbon_heteroaromatic"),
-        alkene=_by_kind(_rows("carbon_alkene")),
-        alkyne=_by_kind(_rows("carbon_alkyne")),
-        functional=_rows("carbon_functional"),
-        functional_substituent=_rows("carbon_functional_substituent"),
-        sigma=sigma,
-    )
+    tables = {
+        "sp3": _by_kind(_rows("carbon_sp3", "key")),
+        "sp3_substituent": _rows("carbon_sp3_substituent"),
+        "benzene": _by_kind(_rows("carbon_benzene")),
+        "heteroaromatic": _rows("carbon_heteroaromatic"),
+        "alkene": _by_kind(_rows("carbon_alkene")),
+        "alkyne": _by_kind(_rows("carbon_alkyne")),
+        "functional": _rows("carbon_functional"),
+        "functional_substituent": _rows("carbon_functional_substituent"),
+    }
+    rows = [row for table in tables.values()
+            for row in (table if isinstance(table, list) else [r for kind in table.values() for r in kind])]
+    return _Tables(**tables, sigma=sigma, screen=Screen([row.query for row in rows if row.query is not None]))
 
 
 # ---------------------------------------------------------- one molecule ----
@@ -201,9 +205,12 @@ class _Arithmetic:
         self.handbook = 0.0
         self.add(name, row, column)
 
-    def add(self, name: str, row: _Row, column: str, times: float = 1.0, variant: str = "") -> None:
-        """Add ``times`` the value of ``row`` in ``column``; ``variant`` (e.g. ``@5``, on a five-membered
-        ring) gives the value its own refit delta."""
+    def add(self, name: str, row: _Row, column: str, times: float = 1.0, variant: str = "",
+            repeat: int = 1) -> None:
+        """Add ``times`` the value of ``row`` in ``column``, ``repeat`` times over (as that many calls);
+        ``variant`` (e.g. ``@5``, on a five-membered ring) gives the value its own refit delta."""
+        if repeat < 1:
+            return
         entry = _ADDED.get((id(row), column, variant))
         if entry is None or entry[0] is not row:
             entry = _added(row, column, variant)
@@ -211,10 +218,11 @@ class _Arithmetic:
         _, value, feature, refitted, keys = entry
         if value is None:
             return
-        self.handbook += value * times
-        self.features[feature] += times
-        self.values[name] = self.values.get(name, 0.0) + refitted * times
-        self.counts[name] += 1
+        for _ in range(repeat):
+            self.handbook += value * times
+            self.features[feature] += times
+            self.values[name] = self.values.get(name, 0.0) + refitted * times
+        self.counts[name] += repeat
         for key in keys:
             if key not in self.rows:
                 self.rows.append(key)
@@ -250,21 +258,49 @@ def _refit() -> dict[str, float]:
 
 
 class _Molecule:
-    """The heavy-atom graph of a molecule with the lookups the shift rules need."""
+    """The heavy-atom graph of a molecule with the lookups the shift rules need.
+
+    Atoms and bonds are read from RDKit once, by index (faster than its ``GetAtoms``/``GetBonds``
+    sequences); each atom's bonds keep RDKit's order.  Table rows are screened
+    (``rank.predict.screen``) before any substructure search.
+    """
 
     def __init__(self, mol: Chem.Mol) -> None:
         self.mol = mol
-        atoms = list(mol.GetAtoms())
-        self.heavy = [[n.GetIdx() for n in a.GetNeighbors() if n.GetAtomicNum() > 1] for a in atoms]
-        self.sp3c = [a.GetAtomicNum() == 6 and not a.GetIsAromatic()
-                     and all(b.GetBondType() == Chem.BondType.SINGLE for b in a.GetBonds()) for a in atoms]
+        atoms = list(map(mol.GetAtomWithIdx, range(mol.GetNumAtoms())))
+        self.z = [a.GetAtomicNum() for a in atoms]
+        self.aromatic = [a.GetIsAromatic() for a in atoms]
+        self.nh = [a.GetTotalNumHs() for a in atoms]
+        self.charge = [a.GetFormalCharge() for a in atoms]
+        self.bond_types = []
+        self.bonded: list[list[tuple[int, Chem.BondType]]] = [[] for _ in atoms]   # (neighbour, bond type)
+        for b in map(mol.GetBondWithIdx, range(mol.GetNumBonds())):
+            i, j, kind = b.GetBeginAtomIdx(), b.GetEndAtomIdx(), b.GetBondType()
+            self.bond_types.append((i, j, kind))
+            self.bonded[i].append((j, kind))
+            self.bonded[j].append((i, kind))
+        self.heavy = [[n for n, _ in bonds if self.z[n] > 1] for bonds in self.bonded]
+        self.sp3c = [z == 6 and not aromatic and all(kind == Chem.BondType.SINGLE for _, kind in bonds)
+                     for z, aromatic, bonds in zip(self.z, self.aromatic, self.bonded)]
         self.rings = [tuple(r) for r in mol.GetRingInfo().AtomRings()]
-        self.elements = frozenset(a.GetAtomicNum() for a in atoms)
+        self.elements = frozenset(self.z)
         self._classified: dict[str, dict[tuple[int, int], _Row]] = {}
+        self._starts: dict[str, set[int]] = {}
+
+    @cached_property
+    def features(self) -> Features:
+        """The table screen's requirements the molecule meets."""
+        return _tables().screen.features(self.mol, self.z, self.aromatic, self.nh, self.charge, self.bond_types,
+                                         self.rings)
+
+    def _may_match(self, row: _Row) -> bool:
+        if row.query is None or not row.elements <= self.elements:
+            return False
+        return _tables().screen.passes(row.query, self.features.present)
 
     @cached_property
     def aromatic_rings(self) -> list[tuple[int, ...]]:
-        return [r for r in self.rings if all(self.mol.GetAtomWithIdx(a).GetIsAromatic() for a in r)]
+        return [r for r in self.rings if all(self.aromatic[a] for a in r)]
 
     def smallest_ring(self, atoms: tuple[int, ...]) -> int:
         return min((len(r) for r in self.rings if all(a in r for a in atoms)), default=0)
@@ -275,10 +311,14 @@ class _Molecule:
         found = self._classified.get(name)
         if found is None:
             found = {}
+            screen = _tables().screen
             for r in rows:
-                if r.query is None or not r.elements <= self.elements:
+                if not self._may_match(r):
                     continue
-                for match in self.mol.GetSubstructMatches(r.query, uniquify=False, maxMatches=_MAX_MATCHES):
+                matches = screen.matches(r.query, self.features)
+                if matches is None:
+                    matches = self.mol.GetSubstructMatches(r.query, uniquify=False, maxMatches=_MAX_MATCHES)
+                for match in matches:
                     found.setdefault((match[0], match[1] if pairs else -1), r)
             self._classified[name] = found
         return found
@@ -287,29 +327,31 @@ class _Molecule:
         """The first row whose SMARTS matches with ``atom`` as its atom 1."""
         return self.classify(name, rows, pairs=False).get((atom, -1))
 
+    def starts(self, row: _Row) -> set[int]:
+        """The first atoms of the row's matches (``GetSubstructMatches`` with its default uniquify)."""
+        found = self._starts.get(row.key)
+        if found is None:
+            found = {match[0] for match in self.mol.GetSubstructMatches(row.query)} if self._may_match(row) else set()
+            self._starts[row.key] = found
+        return found
+
     def multiple_partner(self, atom: int) -> tuple[str, int | None]:
         """How the carbon is bonded: ("aromatic"|"functional"|"alkyne"|"alkene"|"sp3", partner)."""
-        a = self.mol.GetAtomWithIdx(atom)
-        if a.GetIsAromatic():
-            exocyclic = any(b.GetBondType() == Chem.BondType.DOUBLE and b.GetOtherAtom(a).GetAtomicNum() in (8, 16)
-                            for b in a.GetBonds())
+        z, bonds = self.z, self.bonded[atom]
+        if self.aromatic[atom]:
+            exocyclic = any(kind == Chem.BondType.DOUBLE and z[other] in (8, 16) for other, kind in bonds)
             return ("functional" if exocyclic else "aromatic"), None
-        doubles, triples = [], []
-        for b in a.GetBonds():
-            other = b.GetOtherAtom(a)
-            if b.GetBondType() == Chem.BondType.DOUBLE:
-                doubles.append(other)
-            elif b.GetBondType() == Chem.BondType.TRIPLE:
-                triples.append(other)
-        if any(o.GetAtomicNum() != 6 for o in doubles + triples) or len(doubles) > 1:
+        doubles = [other for other, kind in bonds if kind == Chem.BondType.DOUBLE]
+        triples = [other for other, kind in bonds if kind == Chem.BondType.TRIPLE]
+        if any(z[o] != 6 for o in doubles + triples) or len(doubles) > 1:
             return "functional", None
         if triples:
-            return "alkyne", triples[0].GetIdx()
+            return "alkyne", triples[0]
         if doubles:
             partner = doubles[0]
-            cumulated = sum(1 for b in partner.GetBonds() if b.GetBondType() == Chem.BondType.DOUBLE) > 1
-            return ("functional" if cumulated else "alkene"), partner.GetIdx()
-        if a.GetAtomicNum() == 6 and all(b.GetBondType() == Chem.BondType.SINGLE for b in a.GetBonds()):
+            cumulated = sum(1 for _, kind in self.bonded[partner] if kind == Chem.BondType.DOUBLE) > 1
+            return ("functional" if cumulated else "alkene"), partner
+        if z[atom] == 6 and all(kind == Chem.BondType.SINGLE for _, kind in bonds):
             return "sp3", None
         return "functional", None
 
@@ -340,8 +382,7 @@ def _sp3(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
                 if n not in dist and m.sp3c[n]:
                     dist[n] = d
                     reached.append(n)
-        for _ in reached:
-            arith.add(position[d].label, position[d], "value")
+        arith.add(position[d].label, position[d], "value", repeat=len(reached))
         frontier = reached
     # steric corrections: sp3 carbon neighbours of the carbon and of each attached sp3 carbon
 
@@ -362,7 +403,7 @@ def _sp3(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
         for x in m.heavy[a]:
             if not m.sp3c[x] and (x not in placed or placed[x][0] > d):
                 placed[x] = (d, a)
-    n_h = m.mol.GetAtomWithIdx(atom).GetTotalNumHs()
+    n_h = m.nh[atom]
     for x, (d, a) in placed.items():
         row = classes.get((a, x))
         if row is None:
@@ -380,11 +421,10 @@ def _sp3(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
     if ring >= 3:
         row = rings[min(ring, max(rings))]
         arith.add(row.label, row, "value")
-    hetero = sum(1 for n in m.heavy[atom] if m.mol.GetAtomWithIdx(n).GetAtomicNum() in _HETERO)
+    hetero = sum(1 for n in m.heavy[atom] if m.z[n] in _HETERO)
     if hetero >= 2:
         for row in t["site"]:
-            if row.query is not None and row.elements <= m.elements \
-                    and any(match[0] == atom for match in m.mol.GetSubstructMatches(row.query)):
+            if atom in m.starts(row):
                 count = hetero - 1 if row.fields["key"] == "gem_hetero" else 1
                 arith.add(row.label, row, "value", count)
                 break
@@ -425,15 +465,12 @@ def _unsaturated(m: _Molecule, atom: int, partner: int, kind: str) -> tuple[_Ari
                 arith.add(f"α{prime} C", alpha, column)
                 n_beta, n_gamma = _chain(m, x, {atom, partner}, 2)
                 n_hetero = sum(1 for y in m.heavy[x] if y not in (atom, partner)
-                               and m.mol.GetAtomWithIdx(y).GetAtomicNum() in _HETERO)
+                               and m.z[y] in _HETERO)
                 if beta_hetero is not None:
-                    for _ in range(n_hetero):
-                        arith.add(f"β{prime} heteroatom", beta_hetero, column)
+                    arith.add(f"β{prime} heteroatom", beta_hetero, column, repeat=n_hetero)
                     n_beta -= n_hetero
-                for _ in range(n_beta):
-                    arith.add(f"β{prime}", beta, column)
-                for _ in range(n_gamma):
-                    arith.add(f"γ{prime}", gamma, column)
+                arith.add(f"β{prime}", beta, column, repeat=n_beta)
+                arith.add(f"γ{prime}", gamma, column, repeat=n_gamma)
             else:
                 row = classes.get((here, x))
                 if row is not None:
@@ -458,7 +495,7 @@ def _aromatic(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
     six = [r for r in rings if len(r) == 6]
 
     def heteroatoms(ring: tuple[int, ...]) -> int:
-        return sum(1 for a in ring if m.mol.GetAtomWithIdx(a).GetAtomicNum() != 6)
+        return sum(1 for a in ring if m.z[a] != 6)
 
     if six:
         home = max(six, key=heteroatoms)
@@ -488,7 +525,7 @@ def _aromatic(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
         if d >= len(columns):   # rings of eight or more atoms: no increment beyond para
             continue
         column = columns[d]
-        if d and len(home) == 6 and m.mol.GetAtomWithIdx(a).GetAtomicNum() != 6:
+        if d and len(home) == 6 and m.z[a] != 6:
             hetero = _ring_heteroatom(m, a)
             row = aza if hetero == "aza" else ring_hetero.get(hetero)
             if row is not None:
@@ -506,7 +543,7 @@ def _aromatic(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
                 size = len(other[0]) if other else 6
                 if size == 6:
                     row = fused["fused6"]
-                elif m.mol.GetAtomWithIdx(x).GetAtomicNum() != 6:
+                elif m.z[x] != 6:
                     row = fused["fused5_hetero"]
                 else:
                     row = fused["fused5_carbon"]
@@ -522,8 +559,7 @@ def _aromatic(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
             arith.add(crowd[0].label, crowd[0], "ipso", pairs)
     if len(home) == 6:
         for row in t.get("site", []):
-            if row.query is not None and row.elements <= m.elements \
-                    and any(match[0] == atom for match in m.mol.GetSubstructMatches(row.query)):
+            if atom in m.starts(row):
                 arith.add(row.label, row, "ipso")
                 break
     return arith, family
@@ -659,30 +695,32 @@ def _carbon_classes(heavy: Chem.Mol) -> list[tuple[list[int], _Arithmetic, str]]
     and 31.4 ppm, from memory; as ``rank.predict.perceive`` splits their H).
     """
     m = _Molecule(heavy)
-    ranks = list(Chem.CanonicalRankAtoms(_mark_amide_sides(heavy), breakTies=False))
+    ranks = _class_ranks(m)
     classes: dict[int, list[int]] = defaultdict(list)
-    for a in heavy.GetAtoms():
-        if a.GetAtomicNum() == 6:
-            classes[ranks[a.GetIdx()]].append(a.GetIdx())
+    for a, z in enumerate(m.z):
+        if z == 6:
+            classes[ranks[a]].append(a)
     return [(atoms, *_arithmetic(m, atoms[0])) for atoms in classes.values()]
 
 
-def _mark_amide_sides(heavy: Chem.Mol) -> Chem.Mol:
-    """A copy in which one of the two equivalent groups on each amide-type N carries an isotope mark,
-    so that canonical ranks tell the sides apart (the same classes whichever group is marked)."""
+def _class_ranks(m: _Molecule) -> list[int]:
+    """Canonical ranks without tie-breaking, with one of the two equivalent groups on each amide-type N
+    carrying an isotope mark, so that the ranks tell the sides apart (the same classes whichever group
+    is marked)."""
+    heavy = m.mol
     ranks = list(Chem.CanonicalRankAtoms(heavy, breakTies=False))
     marked = None
-    for n in heavy.GetAtoms():
-        if n.GetAtomicNum() != 7 or n.GetIsAromatic() or n.GetDegree() != 3 or n.GetTotalNumHs():
+    for n, z in enumerate(m.z):
+        if z != 7 or m.aromatic[n] or len(m.bonded[n]) != 3 or m.nh[n]:
             continue
-        acyl = [x.GetIdx() for x in n.GetNeighbors() if x.GetAtomicNum() == 6 and not x.GetIsAromatic()
-                and any(b.GetBondType() == Chem.BondType.DOUBLE and b.GetOtherAtom(x).GetAtomicNum() in (8, 16)
-                        for b in x.GetBonds())]
-        rest = [x.GetIdx() for x in n.GetNeighbors() if x.GetIdx() not in acyl]
+        neighbours = [x for x, _ in m.bonded[n]]
+        acyl = [x for x in neighbours if m.z[x] == 6 and not m.aromatic[x]
+                and any(kind == Chem.BondType.DOUBLE and m.z[o] in (8, 16) for o, kind in m.bonded[x])]
+        rest = [x for x in neighbours if x not in acyl]
         if acyl and len(rest) == 2 and ranks[rest[0]] == ranks[rest[1]]:
             marked = marked or Chem.RWMol(heavy)
             marked.GetAtomWithIdx(rest[0]).SetIsotope(1)
-    return heavy if marked is None else marked
+    return ranks if marked is None else list(Chem.CanonicalRankAtoms(marked, breakTies=False))
 
 
 class AdditiveFeatures(NamedTuple):
