@@ -154,11 +154,15 @@ def _check_jcamp_text(path: Path, text: str) -> None:
         raise InputError(f"{path.name} holds 2D data; give a 1D spectrum")
     spectra = [k for k in kinds if "SPECTRUM" in k]
     if not spectra and any("FID" in k for k in kinds):
-        raise InputError(f"{path.name} is an unprocessed FID; process it (Fourier transform, phase, baseline) "
-                         "and export the spectrum, or give a peak list")
+        raise _fid_refusal(path)
     if not spectra and "XYDATA" not in labels and "XYPOINTS" not in labels and "DATATABLE" not in labels:
         raise InputError(f"{path.name} holds neither a spectrum (##XYDATA, ##XYPOINTS, ##DATA TABLE) nor a "
                          "peak list (##PEAK TABLE)")
+
+
+def _fid_refusal(path: Path) -> InputError:
+    return InputError(f"{path.name} is an unprocessed FID; process it (Fourier transform, phase, baseline) "
+                      "and export the spectrum, or give a peak list")
 
 
 def _first(dic: dict, key: str) -> str | None:
@@ -193,19 +197,18 @@ def _read_jcamp_trace(path: Path) -> Trace:
                     if "XYPOINTS" in b), dic)
     kind = (_first(dic, "DATATYPE") or "").upper()
     if "FID" in kind:
-        raise InputError(f"{path.name} is an unprocessed FID; process it (Fourier transform, phase, baseline) "
-                         "and export the spectrum, or give a peak list")
+        raise _fid_refusal(path)
     ntuples = "NTUPLES" in (_first(dic, "DATACLASS") or "").upper()
     if isinstance(data, list):
         data = data[0]
     if data is None and "XYPOINTS" in dic:
-        x, y = _xypoints(dic, path)
+        axis, y = _xypoints(dic, path)
     elif data is None:
         raise InputError(f"cannot decode the spectrum data of {path.name}; the file may be damaged")
     else:
         y = np.asarray(data, dtype=float)
-        x = _ntuples_axis(dic, path, len(y)) if ntuples else _xydata_axis(dic, path, len(y))
-    return Trace(_ppm_axis(dic, path, x), y, _jcamp_nucleus(dic, path), _jcamp_frequency(dic),
+        axis = _ntuples_axis(dic, path, len(y)) if ntuples else _xydata_axis(dic, path, len(y))
+    return Trace(_ppm_axis(dic, path, axis), y, _jcamp_nucleus(dic, path), _jcamp_frequency(dic),
                  _jcamp_solvent(dic), _jcamp_experiment(dic), path.name)
 
 
