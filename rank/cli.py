@@ -309,7 +309,8 @@ def _run_identify(args: argparse.Namespace) -> int:
             return csv_text(result)
         from .report import report_html
 
-        return report_html(result, trace=peaks.trace, carbon_trace=carbon and carbon.trace)
+        return report_html(result, trace=peaks.trace, carbon_trace=carbon and carbon.trace,
+                           notes=peaks.notes + (carbon.notes if carbon else ()))
 
     texts = {option: render(option) for option in outputs}
     for option, path in outputs.items():

@@ -252,6 +252,12 @@ def test_identify_with_1h_13c_and_dept_files_ranks_the_true_structure_first(fold
     assert any("CDCl3" in d["reason"] for d in doc["carbon_peaks_dropped"])
     page = report.read_text()
     assert "measured spectrum (1h.dx)" in page and "measured spectrum (13c.dx)" in page
+    from html import escape
+
+    from rank.spectra import read_peak_source
+
+    notes = read_peak_source(str(SPECTRA / folder / "1h.dx")).notes
+    assert notes and all(escape(note) in page for note in notes)  # how the list was picked
 
 
 def test_a_refusal_after_picking_is_still_one_line(capsys):

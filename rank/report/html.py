@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import math
 import re
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from html import escape
 
 import numpy as np
@@ -376,9 +376,10 @@ def _candidate_section(c: Candidate, result: Shortlist, trace: Trace | None = No
 
 
 def report_html(result: Shortlist, title: str | None = None, shown: int = 5, trace: Trace | None = None,
-                carbon_trace: Trace | None = None) -> str:
+                carbon_trace: Trace | None = None, notes: Sequence[str] = ()) -> str:
     """The whole report as one HTML document; ``trace`` and ``carbon_trace``, the measured 1H and 13C
-    spectra the peaks were picked from, are drawn under the observed sticks."""
+    spectra the peaks were picked from, are drawn under the observed sticks, and ``notes`` (how they were
+    picked) are listed with the input."""
     obs = result.observation
     norm = result.candidates[0].scored.normalisation if result.candidates else obs.normalisations[0]
     heading = escape(title or f"peakrank short list for {result.formula.hill}")
@@ -409,6 +410,8 @@ def report_html(result: Shortlist, title: str | None = None, shown: int = 5, tra
         + ("<table><tr><th>δC / ppm</th><th>type</th><th>C</th><th>label</th></tr>" + carbons + "</table>"
            if carbons else "")
         + (f"<p>Dropped:</p><ul>{dropped}</ul>" if dropped else "<p>No peak dropped.</p>")
+        + ("<p>Picked from the spectrum files:</p><ul>" + "".join(f"<li>{escape(n)}</li>" for n in notes) + "</ul>"
+           if notes else "")
         + (f"<p>Hints and limits applied (turn off with --no-hints):</p><ul>{hints}</ul>" if hints else "")
         + f"<p>{result.explored:,} candidates scored; search {escape(state)}.</p>"
         "<h2>Short list</h2><table><tr><th>rank</th><th>SMILES</th><th>misfit</th><th>confidence</th>"
