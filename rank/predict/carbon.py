@@ -653,8 +653,12 @@ class CarbonPredictor:
         heavy, index = _heavy(mol)
         sigma = _tables().sigma
         signals = []
-        graph = EnvironmentGraph(heavy) if self.environment else None
-        for atoms, arith, family in _carbon_classes(heavy):
+        m = _Molecule(heavy)
+        graph = None
+        if self.environment:
+            symbols = [_symbol(z) if z else heavy.GetAtomWithIdx(i).GetSymbol() for i, z in enumerate(m.z)]
+            graph = EnvironmentGraph.from_atoms(symbols, m.aromatic, m.nh, m.charge, m.bonded, m.rings)
+        for atoms, arith, family in _carbon_classes(m):
             first = atoms[0]
             terms = arith.terms()
             rows = list(arith.rows)
@@ -671,7 +675,7 @@ class CarbonPredictor:
                         rows.append(f"{ENVIRONMENT_TABLE}:{found.code}")
             shift = round(sum(t.value for t in terms), 2)
             spread = sigma.get(family, (5.0, 5.0))[1 if corrected else 0]
-            n_h = heavy.GetAtomWithIdx(first).GetTotalNumHs()
+            n_h = m.nh[first]
             signals.append(CarbonSignal(shift=shift, n_h=n_h, atoms=tuple(index[a] for a in atoms), sigma=spread,
                                         terms=terms, family=family, rows=tuple(rows)))
         signals.sort(key=lambda s: (-s.shift, s.atoms[0]))
@@ -686,7 +690,7 @@ def carbon_table(signals: list[CarbonSignal]) -> str:
     return "\n".join(lines) + "\n"
 
 
-def _carbon_classes(heavy: Chem.Mol) -> list[tuple[list[int], _Arithmetic, str]]:
+def _carbon_classes(m: _Molecule) -> list[tuple[list[int], _Arithmetic, str]]:
     """(atoms, arithmetic, family) per symmetry class of carbon of a molecule without explicit H.
 
     Topologically equivalent carbons on the two sides of an amide, thioamide, carbamate or urea
@@ -694,7 +698,6 @@ def _carbon_classes(heavy: Chem.Mol) -> list[tuple[list[int], _Arithmetic, str]]
     temperature, so the groups cis and trans to O give separate lines (N,N-dimethylformamide 36.5
     and 31.4 ppm, from memory; as ``rank.predict.perceive`` splits their H).
     """
-    m = _Molecule(heavy)
     ranks = _class_ranks(m)
     classes: dict[int, list[int]] = defaultdict(list)
     for a, z in enumerate(m.z):
@@ -738,7 +741,13 @@ def additive_features(mol: Chem.Mol) -> list[AdditiveFeatures]:
     """The table values behind each carbon class's additive shift (no explicit H; used by the fit)."""
     return [AdditiveFeatures(tuple(atoms), family, mol.GetAtomWithIdx(atoms[0]).GetTotalNumHs(), arith.handbook,
                              dict(arith.features))
-            for atoms, arith, family in _carbon_classes(mol)]
+            for atoms, arith, family in _carbon_classes(_Molecule(mol))]
+
+
+@cache
+def _symbol(z: int) -> str:
+    """The element symbol of an atomic number (``Atom.GetSymbol`` of a plain atom)."""
+    return Chem.GetPeriodicTable().GetElementSymbol(z)
 
 
 def _heavy(mol: Chem.Mol) -> tuple[Chem.Mol, list[int]]:

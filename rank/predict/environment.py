@@ -19,6 +19,7 @@ falling back to smaller radii when a code is rare.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from functools import cache
 from typing import NamedTuple
 
@@ -44,10 +45,15 @@ class Correction(NamedTuple):
 
 
 def _describe(atom: Chem.Atom) -> str:
-    symbol = atom.GetSymbol().lower() if atom.GetIsAromatic() else atom.GetSymbol()
-    ring = "r" if atom.IsInRing() else ""
-    charge = "+" if atom.GetFormalCharge() > 0 else "-" if atom.GetFormalCharge() < 0 else ""
-    return f"{symbol}{atom.GetTotalNumHs()}{ring}{charge}"
+    return _code(atom.GetSymbol(), atom.GetIsAromatic(), atom.GetTotalNumHs(), atom.IsInRing(),
+                 atom.GetFormalCharge())
+
+
+def _code(symbol: str, aromatic: bool, nh: int, in_ring: bool, charge: int) -> str:
+    symbol = symbol.lower() if aromatic else symbol
+    ring = "r" if in_ring else ""
+    sign = "+" if charge > 0 else "-" if charge < 0 else ""
+    return f"{symbol}{nh}{ring}{sign}"
 
 
 def environment_codes(mol: Chem.Mol, atom: int, radius: int = MAX_RADIUS) -> tuple[str, ...]:
@@ -79,6 +85,21 @@ class EnvironmentGraph:
         self._bonds = [[(b.GetOtherAtomIdx(a.GetIdx()), _BONDS.get(b.GetBondType(), "~")) for b in a.GetBonds()]
                        for a in atoms]
         self._rings = mol.GetRingInfo().AtomRings()
+
+    @classmethod
+    def from_atoms(cls, symbols: Sequence[str], aromatic: Sequence[bool], nh: Sequence[int],
+                   charge: Sequence[int], bonded: Sequence[Sequence[tuple[int, Chem.BondType]]],
+                   rings: Sequence[tuple[int, ...]]) -> EnvironmentGraph:
+        """The graph of a molecule whose atoms were already read: per atom its element symbol,
+        aromaticity, hydrogens, formal charge and (neighbour, bond type) in RDKit's bond order; the
+        molecule's atom rings (``RingInfo.AtomRings``)."""
+        graph = cls.__new__(cls)
+        in_ring = {a for ring in rings for a in ring}
+        graph._described = [_code(*atom, i in in_ring, c)
+                            for i, (atom, c) in enumerate(zip(zip(symbols, aromatic, nh), charge))]
+        graph._bonds = [[(other, _BONDS.get(kind, "~")) for other, kind in bonds] for bonds in bonded]
+        graph._rings = rings
+        return graph
 
     def codes(self, atom: int, radius: int = MAX_RADIUS) -> tuple[str, ...]:
         """The codes of radius 0..``radius`` of one heavy atom, smallest first."""
