@@ -168,6 +168,9 @@ class Shortlist:
     rejected: dict[str, int] = field(default_factory=dict)
     tracked_misfit: float | None = None
     misfits: list[float] = field(default_factory=list)
+    guesses: tuple[Hint, ...] = ()
+    """Hints read with unreported multiplicities let through (a budgeted run searches the space they leave
+    first, then the rest); never a removal."""
     estimated: float | None = None
     """The structures the generator was estimated to build (Knuth estimates of its runs, after planning);
     None for a candidates file."""
@@ -470,6 +473,11 @@ class _Job:
     temperature: float
     track: str | None
     deadline: float | None
+    guesses: tuple[Hint, ...] = ()
+    """Hints read with unreported multiplicities let through: the units marked ``first`` search the space
+    they leave, before the whole space is searched."""
+    seen: frozenset[str] = frozenset()
+    """Structures the ``first`` units scored, which the others skip."""
 
 
 @dataclass(frozen=True)
@@ -482,6 +490,8 @@ class _Unit:
     smiles: tuple[str, ...] = ()
     estimate: float = 0.0
     """The structures the unit is estimated to build (its share of the run's Knuth estimate)."""
+    first: bool = False
+    """A unit of the space the job's ``guesses`` leave (its ``types`` are planned with them)."""
 
 
 @dataclass
@@ -498,6 +508,9 @@ class _Tally:
     rejected: Counter = field(default_factory=Counter)
     filtered: Counter = field(default_factory=Counter)
     built: int = 0
+    first: bool = False
+    smiles: tuple[str, ...] = ()
+    """The structures a ``first`` unit scored."""
 
 
 _job: _Job | None = None
@@ -527,8 +540,10 @@ def _run_unit(unit: _Unit) -> _Tally:
     job = _job
     best, log_norm, scored, misfits, tracked, timed_out = _Best(job.top), -math.inf, 0, [], None, False
     stream = None
+    first: list[str] = []
     if unit.types is not None:
-        stream = IsomerStream(job.formula, require=job.require, forbid=job.forbid, ceiling=0, hints=job.hints,
+        hints = job.hints + job.guesses if unit.first else job.hints
+        stream = IsomerStream(job.formula, require=job.require, forbid=job.forbid, ceiling=0, hints=hints,
                               limits=job.limits)
         source: Iterable[str] = (iso.smiles for iso in stream.stream_run(list(unit.types), unit.part,
                                                                         unit.parts, job.deadline))
@@ -538,9 +553,13 @@ def _run_unit(unit: _Unit) -> _Tally:
         if job.deadline is not None and time.time() > job.deadline:
             timed_out = True
             break
+        if smiles in job.seen:
+            continue
         result = score(smiles, job.observation, job.settings, job.carbon_settings)
         if result is None:
             continue
+        if unit.first:
+            first.append(smiles)
         scored += 1
         log_norm = _logaddexp(log_norm, -result.misfit / job.temperature)
         best.add(result)
@@ -553,7 +572,7 @@ def _run_unit(unit: _Unit) -> _Tally:
     if stream is None:
         return _Tally(best.items(), log_norm, scored, Counter(), misfits, tracked, timed_out)
     return _Tally(best.items(), log_norm, scored, stream.hinted, misfits, tracked, timed_out,
-                  stream.rejected, stream.removed, stream.explored)
+                  stream.rejected, stream.removed, stream.explored, unit.first, tuple(first))
 
 
 @dataclass
@@ -637,34 +656,44 @@ class Identifier:
         observation, dropped = observe(parsed, spectrum, self.solvent, self.field_mhz, self.keep_all_peaks, carbon)
         require = [compile_smarts(s, "--require") for s in self.require]
         forbid = [compile_smarts(s, "--forbid") for s in self.forbid]
-        hints, limits = (), ()
+        hints, limits, guesses = (), (), ()
         if self.use_hints:
-            hints = tuple(read_hints(observation.peaks, observation.normalisations[0].counts, parsed))
+            counts = observation.normalisations[0].counts
+            hints = tuple(read_hints(observation.peaks, counts, parsed))
             if candidates is None:
                 limits = evidence_limits(parsed, observation)
-        result = Shortlist(parsed, observation, dropped, [], 0, False, hints, limits=limits)
+                if self.budget is not None:
+                    claims = {(h.name, h.evidence) for h in hints}
+                    guesses = tuple(h for h in read_hints(observation.peaks, counts, parsed, relaxed=True)
+                                    if (h.name, h.evidence) not in claims)
+        result = Shortlist(parsed, observation, dropped, [], 0, False, hints, limits=limits, guesses=guesses)
         start = time.time()
         deadline = None if self.budget is None else start + self.budget
         job = _Job(parsed, tuple(self.require), tuple(self.forbid), hints, limits, observation, self.settings,
-                   self.carbon_settings, self.top, temperature(), self.track, deadline)
+                   self.carbon_settings, self.top, temperature(), self.track, deadline, guesses)
+        first: list[_Unit] = []
         if candidates is None:
             units, pruned = self._generated_units(result)
+            if guesses:
+                first = self._generated_units(result, guesses)[0]
         else:
             units, pruned = self._listed_units(candidates, require, forbid, result), Counter()
-        best, log_norm, filtered = self._merge(job, units, result, start)
+        best, log_norm, filtered = self._merge(job, first, units, result, start)
         if result.explored == 0 and result.complete:
             raise InputError(_nothing_left(result, filtered, pruned, candidates))
         result.candidates = _ranked(best.items(), log_norm, job.temperature)
         return result
 
-    def _generated_units(self, result: Shortlist) -> tuple[list[_Unit], Counter]:
+    def _generated_units(self, result: Shortlist, guesses: tuple[Hint, ...] = ()) -> tuple[list[_Unit], Counter]:
         """The generator's work units, nearest the list's hydrogen profile first; and the hydrogen
         distributions a one-atom pattern ruled out (pattern -> count).
 
         Without a time budget the space must be under the ceiling; with one, a larger space is searched
-        in that order until the budget is spent, and the result says how much of it was searched."""
+        in that order until the budget is spent, and the result says how much of it was searched.  With
+        ``guesses``, the units of the smaller space the guesses leave (searched first; nothing is recorded
+        in ``result``)."""
         stream = IsomerStream(result.formula, require=self.require, forbid=self.forbid, ceiling=self.ceiling,
-                              hints=result.hints, limits=result.limits)
+                              hints=result.hints + guesses, limits=result.limits)
         if self.budget is None:
             try:
                 stream.check_ceiling()
@@ -675,9 +704,12 @@ class Identifier:
         for types in plan.runs:
             guess = stream.estimate_run(types)
             parts = _shares(guess)
-            units.extend(_Unit(tuple(types), part, parts, estimate=guess / parts) for part in range(parts))
+            units.extend(_Unit(tuple(types), part, parts, estimate=guess / parts, first=bool(guesses))
+                         for part in range(parts))
         expected = HydrogenProfile.of_observation(result.observation, result.formula)
         units.sort(key=lambda u: expected.distance(HydrogenProfile.of_types(u.types)))  # stable among equals
+        if guesses:
+            return units, plan.pruned
         result.hinted = dict(plan.hinted)
         result.estimated = sum(u.estimate for u in units)
         return units, plan.pruned
@@ -692,32 +724,44 @@ class Identifier:
         suspects = list(self._suspects(listed.smiles, result.formula, require, forbid, result))
         return [_Unit(smiles=tuple(suspects[i:i + _CHUNK])) for i in range(0, len(suspects), _CHUNK)]
 
-    def _merge(self, job: _Job, units: list[_Unit], result: Shortlist, start: float) -> tuple[_Best, float, Counter]:
-        """Run the units and merge their tallies in unit order into ``result``; returns the best
-        candidates, the log of the softmax normaliser and the structures each filter removed."""
+    def _merge(self, job: _Job, first: list[_Unit], units: list[_Unit], result: Shortlist,
+               start: float) -> tuple[_Best, float, Counter]:
+        """Run the ``first`` units, then the others, and merge their tallies in unit order into ``result``;
+        returns the best candidates, the log of the softmax normaliser and the structures each filter
+        removed.  What the first units' guesses left out is not a removal, and the others search it."""
         best, log_norm, timed_out, filtered = _Best(self.top), -math.inf, False, Counter()
+        units_in_all = len(first) + len(units)
         try:
-            for done, tally in enumerate(self._tallies(job, units), 1):
+            for done, tally in enumerate(self._staged_tallies(job, first, units), 1):
                 result.explored += tally.scored
                 result.built += tally.built
                 log_norm = _logaddexp(log_norm, tally.log_norm)
                 for s in tally.best:
                     best.add(s)
-                _add_counts(result.hinted, tally.hinted)
-                _add_counts(result.rejected, tally.rejected)
-                filtered.update(tally.filtered)
+                if not tally.first:
+                    _add_counts(result.hinted, tally.hinted)
+                    _add_counts(result.rejected, tally.rejected)
+                    filtered.update(tally.filtered)
                 result.misfits.extend(tally.misfits)
                 if tally.tracked is not None:
                     result.tracked_misfit = tally.tracked
                 timed_out = timed_out or tally.timed_out
                 if self.progress:
-                    print(_progress_line(done, len(units), result, time.time() - start), file=sys.stderr, end="\r",
-                          flush=True)
+                    print(_progress_line(done, units_in_all, result, time.time() - start), file=sys.stderr,
+                          end="\r", flush=True)
         finally:
             if self.progress and units:
                 print(file=sys.stderr)  # end the progress line, also when interrupted
         result.complete = not timed_out
         return best, log_norm, filtered
+
+    def _staged_tallies(self, job: _Job, first: list[_Unit], units: list[_Unit]) -> Iterator[_Tally]:
+        """The tallies of the ``first`` units, then of the others, which skip what the first ones scored."""
+        seen: list[str] = []
+        for tally in self._tallies(job, first):
+            seen.extend(tally.smiles)
+            yield tally
+        yield from self._tallies(replace(job, seen=frozenset(seen)) if seen else job, units)
 
     def _tallies(self, job: _Job, units: list[_Unit]) -> Iterator[_Tally]:
         """The units' tallies in unit order, from this process or from worker processes.

@@ -201,6 +201,21 @@ def test_a_budget_searches_a_space_beyond_the_ceiling_instead_of_refusing():
     assert cut.complete and cut.explored > 10 and cut.coverage == 1.0
 
 
+def test_guesses_searched_first_leave_a_complete_result_unchanged():
+    # ethyl acetate without multiplicities (typical CDCl3 values, from memory): with a budget, the space an
+    # ethyl and a methoxy-free guess leave is searched first, then the rest; the finished list is the same
+    peaks = "4.12 (2H), 2.05 (3H), 1.26 (3H)"
+    plain = Identifier(top=8).identify("C4H8O2", peaks)
+    staged = Identifier(top=8, budget=300).identify("C4H8O2", peaks)
+    assert staged.guesses and not plain.guesses
+    assert "ethyl group" in {h.name for h in staged.guesses}
+    assert staged.complete
+    assert _summary(staged) == _summary(plain)
+    assert staged.explored == plain.explored
+    assert staged.hinted == plain.hinted
+    assert _summary(Identifier(top=8, budget=300, workers=2).identify("C4H8O2", peaks)) == _summary(plain)
+
+
 def test_a_complete_run_searches_about_its_estimate():
     full = _run("toluene", top=3, use_hints=False)
     # Knuth's estimator is unbiased (Knuth, Math. Comp. 1975, 29, 121); with fixed probes it lands near the count

@@ -122,13 +122,15 @@ class _Window:
     multiplicities: tuple[str, ...]
     n_h: tuple[int, ...]
 
-    def fits(self, peak: Peak, n: int) -> bool:
+    def fits(self, peak: Peak, n: int, relaxed: bool = False) -> bool:
+        """Whether a peak of ``n`` H fits the window; ``relaxed`` lets an unreported multiplicity pass."""
         if peak.broad or not self.low <= peak.shift <= self.high:
             return False
+        unreported = peak.multiplicity is None
         if self.multiplicities == ("reported",):
-            if peak.multiplicity is None:
+            if unreported and not relaxed:
                 return False
-        elif self.multiplicities and peak.multiplicity not in self.multiplicities:
+        elif self.multiplicities and peak.multiplicity not in self.multiplicities and not (unreported and relaxed):
             return False
         return not self.n_h or n in self.n_h
 
@@ -190,27 +192,29 @@ def _j_gap(a: Peak, b: Peak) -> float:
     return min(abs(x - y) for x in a.j for y in b.j)
 
 
-def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int], claimed: set[int]) -> Hint | None:
-    """The rule's hint, if the peaks support it; a group rule uses no peak in ``claimed``."""
+def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int], claimed: set[int],
+           relaxed: bool = False) -> Hint | None:
+    """The rule's hint, if the peaks support it; a group rule uses no peak in ``claimed``; ``relaxed`` lets
+    peaks without a reported multiplicity pass any multiplicity the rule asks for."""
     pairs = [(k, pc) for k, pc in enumerate(zip(peaks, counts)) if not (rule.fragments and k in claimed)]
     group = {"smarts": rule.smarts, "fragments": rule.fragments, "max_dbe": rule.max_dbe}
     if rule.kind == "count":
-        used = [(k, p, n) for k, (p, n) in pairs if rule.first.fits(p, n)]
+        used = [(k, p, n) for k, (p, n) in pairs if rule.first.fits(p, n, relaxed)]
         if not used:
             return None
         groups = sum(n // rule.h_per_group for _, _, n in used)
         return Hint(rule.name, ", ".join(p.caption for _, p, _ in used), rule.carbon_h, groups,
                     double_bond=rule.double_bond, peaks=tuple(k for k, _, _ in used))
     if rule.kind == "peak":
-        used = [(k, p) for k, (p, n) in pairs if rule.first.fits(p, n)]
+        used = [(k, p) for k, (p, n) in pairs if rule.first.fits(p, n, relaxed)]
         return Hint(rule.name, used[0][1].caption, peaks=(used[0][0],), **group) if used else None
     if rule.kind == "pair":
         for i, (a, n) in pairs:
-            if not rule.first.fits(a, n):
+            if not rule.first.fits(a, n, relaxed):
                 continue
             # the partner with the closest J (equal within rules/observe.tsv's tolerance when both give one)
             partners = sorted((_j_gap(a, b), j, b, m) for j, (b, m) in pairs
-                              if i != j and rule.second.fits(b, m)
+                              if i != j and rule.second.fits(b, m, relaxed)
                               and _j_gap(a, b) <= observation_rule("equal_j_tolerance"))
             if partners:
                 _, j, b, m = partners[0]
@@ -224,14 +228,16 @@ def _apply(rule: _Rule, peaks: Sequence[Peak], counts: Sequence[int], claimed: s
                   and not p.broad and (rule.max_j is None or all(j <= rule.max_j for j in p.j))]
         if not inside or sum(n for _, _, n in inside) not in rule.first.n_h:
             return None
-        if rule.first.multiplicities == ("reported",) and any(p.multiplicity is None for _, p, _ in inside):
+        if rule.first.multiplicities == ("reported",) and not relaxed \
+                and any(p.multiplicity is None for _, p, _ in inside):
             return None  # without multiplicities and J the alkene H cannot be set aside
         return Hint(rule.name, ", ".join(p.caption for _, p, _ in inside), peaks=tuple(k for k, _, _ in inside),
                     **group)
     raise ValueError(f"rules/hints.tsv row {rule.id}: unknown kind {rule.kind!r}")
 
 
-def read_hints(peaks: Sequence[Peak], counts: Sequence[int], formula: Formula | None = None) -> list[Hint]:
+def read_hints(peaks: Sequence[Peak], counts: Sequence[int], formula: Formula | None = None,
+               relaxed: bool = False) -> list[Hint]:
     """The hints the peaks support, given their whole-number H counts.
 
     Parameters
@@ -242,6 +248,8 @@ def read_hints(peaks: Sequence[Peak], counts: Sequence[int], formula: Formula | 
     formula : when given, a group hint claims no more copies than the formula can hold,
         and one whose group does not fit at all (or whose DBE limit the formula passes)
         is left out.
+    relaxed : read peaks without a reported multiplicity as if they had the one a rule asks for:
+        guesses, not claims, that a budgeted run searches first (``rank.shortlist``).
 
     Returns
     -------
@@ -253,7 +261,7 @@ def read_hints(peaks: Sequence[Peak], counts: Sequence[int], formula: Formula | 
     hints: list[Hint] = []
     claimed: set[int] = set()
     for rule in hint_rules():
-        hint = _apply(rule, peaks, counts, claimed)
+        hint = _apply(rule, peaks, counts, claimed, relaxed)
         if hint is None:
             continue
         while formula is not None and hint.copies > 1 and not hint.fits(formula):

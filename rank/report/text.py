@@ -137,6 +137,7 @@ def to_json(result: Shortlist) -> dict:
                   for h in result.hints],
         "limits": [{"name": lim.name, "claim": lim.claim, "evidence": lim.evidence, "tolerance": lim.tolerance,
                     "removed": result.hinted.get(lim.name, 0)} for lim in result.limits],
+        "searched_first": [{"name": h.name, "copies": h.copies, "evidence": h.evidence} for h in result.guesses],
         "candidates_file_skipped_lines": result.skipped_inputs,
         "candidates_file_note": result.candidates_file_note(),
         "candidates_other_formula": result.other_formula,
@@ -257,6 +258,9 @@ def terminal_text(result: Shortlist, detail: int = 1) -> str:
         tolerance = f", allowing {lim.tolerance}" if lim.tolerance else ""
         lines.append(f"limit: {lim.claim} ({lim.evidence}{tolerance}); removed about {removed:,} structures "
                      "(--no-hints turns limits off)")
+    for h in result.guesses:
+        lines.append(f"searched first: {h.claim} from {h.evidence}, as if the multiplicities had been reported "
+                     "(a guess: the rest of the space is searched after it)")
     if result.skipped_inputs:
         lines.append(f"candidates file: {result.skipped_inputs} unreadable lines skipped")
     if result.other_formula:
