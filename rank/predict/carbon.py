@@ -711,7 +711,8 @@ def _class_ranks(m: _Molecule) -> list[int]:
     carrying an isotope mark, so that the ranks tell the sides apart (the same classes whichever group
     is marked)."""
     heavy = m.mol
-    ranks = list(Chem.CanonicalRankAtoms(heavy, breakTies=False))
+    found = Chem.CanonicalRankAtoms(heavy, breakTies=False)
+    ranks = [found[i] for i in range(len(m.z))]   # indexing RDKit's vector is faster than iterating it
     marked = None
     for n, z in enumerate(m.z):
         if z != 7 or m.aromatic[n] or len(m.bonded[n]) != 3 or m.nh[n]:
@@ -723,7 +724,10 @@ def _class_ranks(m: _Molecule) -> list[int]:
         if acyl and len(rest) == 2 and ranks[rest[0]] == ranks[rest[1]]:
             marked = marked or Chem.RWMol(heavy)
             marked.GetAtomWithIdx(rest[0]).SetIsotope(1)
-    return ranks if marked is None else list(Chem.CanonicalRankAtoms(marked, breakTies=False))
+    if marked is None:
+        return ranks
+    found = Chem.CanonicalRankAtoms(marked, breakTies=False)
+    return [found[i] for i in range(len(m.z))]
 
 
 class AdditiveFeatures(NamedTuple):

@@ -323,8 +323,8 @@ def _graph(mol: Chem.Mol) -> Graph:
         bond_types.append((i, j, kind))
         if order == 2.0 and b.GetStereo() in _STEREO_SET:
             stereo_bonds.append(k)
-    with_h = Chem.AddHs(heavy)
-    ranks = list(Chem.CanonicalRankAtoms(with_h, breakTies=False, includeChirality=False))[: len(z)]
+    found = Chem.CanonicalRankAtoms(Chem.AddHs(heavy), breakTies=False, includeChirality=False)
+    ranks = [found[i] for i in range(len(z))]   # indexing RDKit's vector is faster than iterating it
     rings = tuple(heavy.GetRingInfo().AtomRings())
     saturated = [zi == 6 and not ar and all(o == 1.0 for o in b.values()) for zi, ar, b in zip(z, aromatic, bonds)]
     return Graph(heavy, index, z, nh, aromatic, bonds, rings, ranks, frozenset(z),

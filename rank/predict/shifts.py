@@ -103,11 +103,11 @@ class AlkylIncrement(NamedTuple):
 
     def alpha(self, family: str) -> float | None:
         """The alpha increment for H of ``family`` (CH3, CH2 or CH)."""
-        return {"CH3": self.alpha_ch3, "CH2": self.alpha_ch2, "CH": self.alpha_ch}[family]
+        return self[_ALPHA[family]]
 
     def beta(self, family: str) -> float | None:
         """The beta increment for H of ``family`` (CH3, CH2 or CH)."""
-        return {"CH3": self.beta_ch3, "CH2": self.beta_ch2, "CH": self.beta_ch}[family]
+        return self[_BETA[family]]
 
 
 class AlkylSiteRow(NamedTuple):
@@ -128,7 +128,7 @@ class AlkylSiteRow(NamedTuple):
 
     def value(self, family: str) -> float | None:
         """The value for H of ``family`` (CH3, CH2 or CH)."""
-        return {"CH3": self.ch3, "CH2": self.ch2, "CH": self.ch}[family]
+        return self[_SITE[family]]
 
 
 class AlkeneRow(NamedTuple):
@@ -169,7 +169,7 @@ class BenzeneRow(NamedTuple):
 
     def at(self, position: str) -> float | None:
         """The increment at ``position`` (ortho, meta or para) from the substituent."""
-        return {"ortho": self.ortho, "meta": self.meta, "para": self.para}[position]
+        return self[_AT[position]]
 
 
 class HeteroaromaticRow(NamedTuple):
@@ -200,6 +200,17 @@ class SpecialRow(NamedTuple):
     query: Chem.Mol
     elements: frozenset[int]
     key: str
+
+
+def _columns(row_type: type, names: dict[str, str]) -> dict[str, int]:
+    """Field positions of a row type by key, so that an accessor indexes the row instead of building a dict."""
+    return {key: row_type._fields.index(name) for key, name in names.items()}
+
+
+_ALPHA = _columns(AlkylIncrement, {"CH3": "alpha_ch3", "CH2": "alpha_ch2", "CH": "alpha_ch"})
+_BETA = _columns(AlkylIncrement, {"CH3": "beta_ch3", "CH2": "beta_ch2", "CH": "beta_ch"})
+_SITE = _columns(AlkylSiteRow, {"CH3": "ch3", "CH2": "ch2", "CH": "ch"})
+_AT = _columns(BenzeneRow, {"ortho": "ortho", "meta": "meta", "para": "para"})
 
 
 class SolventShift(NamedTuple):
