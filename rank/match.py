@@ -313,9 +313,9 @@ class _Memo:
         self.matches: dict[tuple, Match] = {}
 
 
-_MEMO_LISTS = 8
+_MEMO_LISTS = 4
 """Peak lists whose memo is kept (the oldest is dropped)."""
-_MEMO_SIZE = 20_000
+_MEMO_SIZE = 4096
 """Entries a memo's table holds before it is emptied, so that memory stays flat in long runs."""
 _MEMOS: dict[tuple[int, int], _Memo] = {}
 
