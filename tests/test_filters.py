@@ -32,6 +32,10 @@ EXAMPLES: dict[str, tuple[list[str], list[str]]] = {
         ["c1cc#c[nH]1"],  # 2,3-didehydropyrrole (aryne-type)
         ["N#Cc1ccco1"],  # 2-furonitrile: the triple bond is outside the ring
     ),
+    "large_aromatic_ring": (
+        ["c1ccoccoc1"],  # 1,4-dioxocin drawn aromatic (ten pi electrons)
+        ["Oc1ccccc1O"],  # catechol, the same formula
+    ),
     "three_ring_aromatic": (
         ["c1ccc2c(c1)C2"],  # cyclopropabenzene
         ["c1ccc2c(c1)CC2"],  # benzocyclobutene

@@ -52,7 +52,7 @@ def normalise(peaks: tuple[Peak, ...], hydrogens: int, max_missing: int,
     scaled so that they sum to the formula's hydrogens, or to fewer when up to
     ``max_missing`` exchangeable H may be unobserved; every peak holds at least
     one H (the rounding tolerance and how many readings are kept are in
-    ``rules/observe.tsv``).  The plausible choices are returned best first (smallest rounding
+    ``rules/observe.tsv``); the rounding of a broad peak (``br``) is not held against a reading.  The plausible choices are returned best first (smallest rounding
     residual, fewest missing H), so that the matching can decide between them.
 
     Raises
@@ -85,7 +85,10 @@ def normalise(peaks: tuple[Peak, ...], hydrogens: int, max_missing: int,
             counts[i] += 1 if diff > 0 else -1
         if min(counts) < 1:
             continue
-        error = max(abs(r - c) / max(c, 1) ** 0.5 for r, c in zip(raw, counts))
+        # a broad signal's area is unreliable (exchange with water, saturation; common practice): its
+        # residual does not count against a reading, unless every peak is broad
+        judged = [(r, c) for r, c, p in zip(raw, counts, peaks) if not p.broad] or list(zip(raw, counts))
+        error = max(abs(r - c) / max(c, 1) ** 0.5 for r, c in judged)
         if error <= observation_rule("integral_rounding_tolerance"):
             options.append(Normalisation(tuple(counts), hydrogens - target, scale, error))
     options.sort(key=lambda o: (round(o.error, 1), o.missing))
