@@ -226,8 +226,7 @@ class ShiftTables(NamedTuple):
     """The shift tables, read once (:func:`shift_tables`).
 
     ``solvent`` is keyed by (solvent id, target), the first row winning; ``sigma`` by family;
-    ``screen`` skips the rows whose SMARTS cannot match a molecule.  The last fields pick out the
-    base, site and substituent rows of the alkene and benzene tables.
+    ``screen`` skips the rows whose SMARTS cannot match a molecule.
     """
 
     alkyl: tuple[AlkylIncrement, ...]
@@ -239,11 +238,6 @@ class ShiftTables(NamedTuple):
     solvent: dict[tuple[str, str], SolventShift]
     sigma: dict[str, float]
     screen: Screen
-    alkene_base: AlkeneRow
-    alkene_sites: tuple[AlkeneRow, ...]
-    alkene_increments: tuple[AlkeneRow, ...]
-    benzene_base: BenzeneRow
-    benzene_increments: tuple[BenzeneRow, ...]
 
 
 _TEXT_COLUMNS = frozenset({"id", "smarts", "label", "group", "kind", "family"})
@@ -316,11 +310,7 @@ def shift_tables() -> ShiftTables:
         "special": _read_rows("shift_special", SpecialRow),
     }
     screen = Screen([row.query for table in rows.values() for row in table])
-    alkene, benzene = rows["alkene"], rows["benzene"]
-    return ShiftTables(**rows, solvent=_read_solvent_shifts(), sigma=_read_sigma(), screen=screen,
-                       alkene_base=_base(alkene), alkene_sites=tuple(r for r in alkene if r.kind == "site"),
-                       alkene_increments=_increments(alkene), benzene_base=_base(benzene),
-                       benzene_increments=_increments(benzene))
+    return ShiftTables(**rows, solvent=_read_solvent_shifts(), sigma=_read_sigma(), screen=screen)
 
 
 # -------------------------------------------------------------- matching ----
@@ -364,13 +354,28 @@ def _in_group(row: AlkylSiteRow, matches: Sequence[tuple[int, ...]]) -> list[tup
     return [(row.group, m[0]) for m in matches]
 
 
-def _increments(rows: tuple[_Row, ...]) -> tuple[_Row, ...]:
-    """The substituent rows of the alkene or benzene table (not the base or site rows)."""
-    return tuple(r for r in rows if r.kind not in ("base", "site"))
+class _Parts(NamedTuple):
+    """The base row, site rows and substituent rows of the alkene or benzene table."""
+
+    rows: tuple
+    base: _Row
+    sites: tuple
+    increments: tuple
 
 
-def _base(rows: tuple[_Row, ...]) -> _Row:
-    return next(r for r in rows if r.kind == "base")
+_PARTS: dict[int, _Parts] = {}
+
+
+def _parts(rows: tuple[_Row, ...]) -> _Parts:
+    """The parts of a table, worked out once per table (its rows are held, so their id is not reused)."""
+    found = _PARTS.get(id(rows))
+    if found is None or found.rows is not rows:
+        if len(_PARTS) > 16:
+            _PARTS.clear()
+        found = _PARTS[id(rows)] = _Parts(rows, next(r for r in rows if r.kind == "base"),
+                                          tuple(r for r in rows if r.kind == "site"),
+                                          tuple(r for r in rows if r.kind not in ("base", "site")))
+    return found
 
 
 # ------------------------------------------------------------ arithmetic ----
@@ -491,15 +496,15 @@ class _Matched:
 
     @cached_property
     def alkene_increments(self) -> dict[tuple[int, int], AlkeneRow]:
-        return self._first(self.tables.alkene_increments, _on_bond)
+        return self._first(_parts(self.tables.alkene).increments, _on_bond)
 
     @cached_property
     def alkene_sites(self) -> dict[int, AlkeneRow]:
-        return self._first(self.tables.alkene_sites, _on_atom)
+        return self._first(_parts(self.tables.alkene).sites, _on_atom)
 
     @cached_property
     def ring_increments(self) -> dict[tuple[int, int], BenzeneRow]:
-        return self._first(self.tables.benzene_increments, _on_bond)
+        return self._first(_parts(self.tables.benzene).increments, _on_bond)
 
     @cached_property
     def heteroaromatic_parents(self) -> dict[int, HeteroaromaticRow]:
@@ -599,7 +604,7 @@ def _alkene_sum(matched: _Matched, draft: ClassDraft) -> _Sum:
     """5.25 + Z_gem of the other group on the H's carbon + Z_cis and Z_trans across the bond."""
     graph, carbon = matched.graph, draft.sites[0].atom
     other = next(j for j, order in graph.bonds[carbon].items() if order == 2.0)
-    base = matched.tables.alkene_base
+    base = _parts(matched.tables.alkene).base
     terms, rows = [Term("alkene base", base.gem)], [base]
     for geminal in graph.bonds[carbon]:
         if geminal != other and (row := matched.alkene_increments.get((carbon, geminal))) is not None:
@@ -633,7 +638,7 @@ def _ring_sum(matched: _Matched, draft: ClassDraft) -> _Sum:
         parent = matched.heteroaromatic_parents[atom]
         terms, rows = [Term(parent.label, parent.shift)], [parent]
     else:
-        base = matched.tables.benzene_base
+        base = _parts(matched.tables.benzene).base
         terms, rows = [Term("benzene base", base.ortho)], [base]
     size, here = len(ring), ring.index(atom)
     for place, ring_atom in enumerate(ring):
