@@ -669,15 +669,17 @@ class Identifier:
         result = Shortlist(parsed, observation, dropped, [], 0, False, hints, limits=limits, guesses=guesses)
         start = time.time()
         deadline = None if self.budget is None else start + self.budget
-        job = _Job(parsed, tuple(self.require), tuple(self.forbid), hints, limits, observation, self.settings,
-                   self.carbon_settings, self.top, temperature(), self.track, deadline, guesses)
         first: list[_Unit] = []
         if candidates is None:
             units, pruned = self._generated_units(result)
             if guesses:
                 first = self._generated_units(result, guesses)[0]
+                if sum(u.estimate for u in first) > _GUESSED_SHARE * (result.estimated or 0):
+                    first, result.guesses = [], ()  # the guesses narrow too little to be worth a first pass
         else:
             units, pruned = self._listed_units(candidates, require, forbid, result), Counter()
+        job = _Job(parsed, tuple(self.require), tuple(self.forbid), hints, limits, observation, self.settings,
+                   self.carbon_settings, self.top, temperature(), self.track, deadline, result.guesses)
         best, log_norm, filtered = self._merge(job, first, units, result, start)
         if result.explored == 0 and result.complete:
             raise InputError(_nothing_left(result, filtered, pruned, candidates))
@@ -971,6 +973,9 @@ class HydrogenProfile(NamedTuple):
         return (abs(self.methyls - other.methyls) + abs(self.labile - other.labile),
                 abs(self.methylenes - other.methylenes) + abs(self.methines - other.methines))
 
+
+_GUESSED_SHARE = 0.5
+"""The guesses' space is searched first only when it is at most this share of the whole (estimated)."""
 
 _AROMATIC_FROM = 6.5
 """ppm: sharp H above this sit on CH carbons (aromatic, alkene, imine and aldehyde H; common practice)."""
