@@ -128,12 +128,19 @@ class _Row(NamedTuple):
     elements: frozenset[int] = frozenset()
 
     def num(self, column: str) -> float | None:
-        text = self.fields.get(column, "")
-        return float(text) if text.strip() else None
+        found = _NUMBERS.get((id(self), column))
+        if found is None or found[0] is not self:
+            text = self.fields.get(column, "")
+            found = _NUMBERS[(id(self), column)] = (self, float(text) if text.strip() else None)
+        return found[1]
 
     @property
     def label(self) -> str:
         return self.fields["label"]
+
+
+_NUMBERS: dict[tuple[int, str], tuple[_Row, float | None]] = {}
+"""Table cells as numbers by (row id, column), parsed once; with the row itself, so that its id is not reused."""
 
 
 def _rows(table: str, id_column: str = "id") -> list[_Row]:
@@ -299,6 +306,11 @@ class _Molecule:
         return _tables().screen.passes(row.query, self.features.present)
 
     @cached_property
+    def sp3_degree(self) -> list[int]:
+        """Per atom, its sp3 carbon neighbours, counted from 1 to 4."""
+        return [min(4, max(1, sum(1 for n in heavy if self.sp3c[n]))) for heavy in self.heavy]
+
+    @cached_property
     def aromatic_rings(self) -> list[tuple[int, ...]]:
         return [r for r in self.rings if all(self.aromatic[a] for a in r)]
 
@@ -385,13 +397,10 @@ def _sp3(m: _Molecule, atom: int) -> tuple[_Arithmetic, str]:
         arith.add(position[d].label, position[d], "value", repeat=len(reached))
         frontier = reached
     # steric corrections: sp3 carbon neighbours of the carbon and of each attached sp3 carbon
-
-    def degree(a: int) -> int:
-        return min(4, max(1, sum(1 for n in m.heavy[a] if m.sp3c[n])))
-
+    degree = m.sp3_degree
     for n in m.heavy[atom]:
         if m.sp3c[n]:
-            row = steric.get(f"{degree(atom)}-{degree(n)}")
+            row = steric.get(f"{degree[atom]}-{degree[n]}")
             if row is not None:
                 arith.add(row.label, row, "value")
     # substituents other than sp3 carbon: alpha, beta, gamma by the sp3 carbon carrying them
