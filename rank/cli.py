@@ -298,9 +298,8 @@ def _run_identify(args: argparse.Namespace) -> int:
 
     peaks = read_peak_source(args.peaks, "1H", args.solvent)
     carbon = None if args.carbon is None else read_peak_source(args.carbon, "13C", args.solvent, args.dept135)
-    result = identifier.identify(args.formula, peaks.spectrum, args.candidates, carbon and carbon.spectrum)
-    result.dropped = peaks.dropped + (carbon.dropped if carbon else ()) + result.dropped
-    _print_notes(peaks, carbon)  # after the run, so that a refusal stays one line
+    result = identifier.identify(args.formula, peaks, args.candidates, carbon)
+    _print_notes(result.notes)  # after the run, so that a refusal stays one line
 
     def render(option: str) -> str:
         if option == "--json":
@@ -309,8 +308,7 @@ def _run_identify(args: argparse.Namespace) -> int:
             return csv_text(result)
         from .report import report_html
 
-        return report_html(result, trace=peaks.trace, carbon_trace=carbon and carbon.trace,
-                           notes=peaks.notes + (carbon.notes if carbon else ()))
+        return report_html(result, trace=peaks.trace, carbon_trace=carbon and carbon.trace, notes=result.notes)
 
     texts = {option: render(option) for option in outputs}
     for option, path in outputs.items():
@@ -327,11 +325,10 @@ def _run_identify(args: argparse.Namespace) -> int:
     return 0
 
 
-def _print_notes(*sources) -> None:
+def _print_notes(notes) -> None:
     """What picking a spectrum file did (referencing, picking), one stderr line each."""
-    for source in sources:
-        for note in () if source is None else source.notes:
-            print(f"peakrank: {note}", file=sys.stderr)
+    for note in notes:
+        print(f"peakrank: {note}", file=sys.stderr)
 
 
 def _check_outputs(args: argparse.Namespace, options: dict[str, tuple[str, str]]) -> dict[str, str]:
@@ -480,7 +477,7 @@ def _run_peaks(args: argparse.Namespace) -> int:
     text = json.dumps(peak_list_json(source), indent=2, ensure_ascii=False) + "\n"
     if outputs.get("--json", "-") != "-":
         write_whole_file(outputs["--json"], text, args.force)
-    _print_notes(source)
+    _print_notes(source.notes)
     for d in source.dropped:
         print(f"peakrank: dropped {d.peak.caption} ({d.reason})", file=sys.stderr)
     if outputs.get("--json") == "-":

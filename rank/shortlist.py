@@ -63,6 +63,7 @@ from .spectra import (
     Dropped,
     Normalisation,
     Peak,
+    PeakSource,
     Spectrum,
     drop_carbon_solvent_signals,
     drop_labelled_peaks,
@@ -70,8 +71,7 @@ from .spectra import (
     exchangeable_bound,
     find_solvent,
     normalise,
-    read_carbon_peaks,
-    read_peaks,
+    read_peak_source,
 )
 from .standardize import Unsupported, quiet_rdkit, standardize, supported_text
 from .tables import read_table
@@ -168,6 +168,8 @@ class Shortlist:
     rejected: dict[str, int] = field(default_factory=dict)
     tracked_misfit: float | None = None
     misfits: list[float] = field(default_factory=list)
+    notes: tuple[str, ...] = ()
+    """How the peaks were picked from a spectrum file (referencing, noise, spin systems); empty for a list."""
     guesses: tuple[Hint, ...] = ()
     """Hints read with unreported multiplicities let through (a budgeted run searches the space they leave
     first, then the rest); never a removal."""
@@ -473,6 +475,8 @@ class _Job:
     temperature: float
     track: str | None
     deadline: float | None
+    notes: tuple[str, ...] = ()
+    """How the peaks were picked from a spectrum file (referencing, noise, spin systems); empty for a list."""
     guesses: tuple[Hint, ...] = ()
     """Hints read with unreported multiplicities let through: the units marked ``first`` search the space
     they leave, before the whole space is searched."""
@@ -533,6 +537,15 @@ def available_cores() -> int:
         return max(1, len(os.sched_getaffinity(0)))
     except (AttributeError, OSError):
         return max(1, os.cpu_count() or 1)
+
+
+def _source(given, nucleus: str, solvent: str | None) -> PeakSource:
+    """A peak list given as text, a file path, a spectrum or a PeakSource, as a PeakSource."""
+    if isinstance(given, PeakSource):
+        return given
+    if isinstance(given, (Spectrum, CarbonSpectrum)):
+        return PeakSource(given)
+    return read_peak_source(given, nucleus, solvent)
 
 
 def _run_unit(unit: _Unit) -> _Tally:
@@ -634,11 +647,12 @@ class Identifier:
         if self.solvent is not None:
             find_solvent(self.solvent)
 
-    def identify(self, formula: str, peaks: str | Spectrum, candidates: str | Sequence[str] | None = None,
-                 carbon: str | CarbonSpectrum | None = None) -> Shortlist:
-        """Run the identification; ``peaks`` is inline text, a file path or a Spectrum; ``candidates``
-        a file of suspects (SMILES or SDF) or a sequence of SMILES, else the formula's isomers;
-        ``carbon`` a 13C list (inline text, a file path or a CarbonSpectrum), scored beside the 1H.
+    def identify(self, formula: str, peaks: str | Spectrum | PeakSource, candidates: str | Sequence[str] | None = None,
+                 carbon: str | CarbonSpectrum | PeakSource | None = None) -> Shortlist:
+        """Run the identification; ``peaks`` is inline text, a peak or spectrum file, a Spectrum or a
+        PeakSource; ``candidates`` a file of suspects (SMILES or SDF) or a sequence of SMILES, else the
+        formula's isomers; ``carbon`` a 13C list of the same kinds, scored beside the 1H.  What picking
+        a spectrum file dropped is in the result's ``dropped``, its notes in ``notes``.
 
         Raises
         ------
@@ -650,10 +664,12 @@ class Identifier:
         """
         self.check_options()
         parsed = parse_formula(formula)
-        spectrum = peaks if isinstance(peaks, Spectrum) else read_peaks(peaks)
-        if isinstance(carbon, str):
-            carbon = read_carbon_peaks(carbon)
-        observation, dropped = observe(parsed, spectrum, self.solvent, self.field_mhz, self.keep_all_peaks, carbon)
+        sources = [_source(peaks, "1H", self.solvent)]
+        if carbon is not None:
+            sources.append(_source(carbon, "13C", self.solvent))
+        observation, dropped = observe(parsed, sources[0].spectrum, self.solvent, self.field_mhz, self.keep_all_peaks,
+                                       sources[1].spectrum if carbon is not None else None)
+        dropped = tuple(d for source in sources for d in source.dropped) + dropped
         require = [compile_smarts(s, "--require") for s in self.require]
         forbid = [compile_smarts(s, "--forbid") for s in self.forbid]
         hints, limits, guesses = (), (), ()
@@ -666,7 +682,8 @@ class Identifier:
                     claims = {(h.name, h.evidence) for h in hints}
                     guesses = tuple(h for h in read_hints(observation.peaks, counts, parsed, relaxed=True)
                                     if (h.name, h.evidence) not in claims)
-        result = Shortlist(parsed, observation, dropped, [], 0, False, hints, limits=limits, guesses=guesses)
+        result = Shortlist(parsed, observation, dropped, [], 0, False, hints, limits=limits, guesses=guesses,
+                           notes=tuple(note for source in sources for note in source.notes))
         start = time.time()
         deadline = None if self.budget is None else start + self.budget
         first: list[_Unit] = []

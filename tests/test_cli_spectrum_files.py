@@ -305,3 +305,16 @@ def test_a_bruker_folder_of_the_same_trace_gives_the_same_list(tmp_path, capsys)
     _, from_folder, _ = run_cli(["peaks", str(tmp_path / "10")], capsys)
     _, from_file, _ = run_cli(["peaks", str(SPECTRA / "620-71-3" / "1h.dx")], capsys)
     assert from_folder == from_file and from_file.count("(") >= 6
+
+
+def test_the_python_api_reports_what_picking_a_file_dropped_and_did():
+    # ethyl crotonate (cheminfo data set, MIT): the same dropped peaks and notes as the command line shows
+    from rank.shortlist import Identifier
+    from rank.spectra import read_peak_source
+
+    path = str(SPECTRA / "623-70-1" / "1h.dx")
+    source = read_peak_source(path)
+    result = Identifier(top=3).identify(_formula("623-70-1"), path, candidates=["CC=CC(=O)OCC", "C=CCC(=O)OCC"])
+    assert result.notes == source.notes and result.notes
+    assert set(source.dropped) <= set(result.dropped)
+    assert any("CDCl3" in d.reason for d in result.dropped)

@@ -52,8 +52,9 @@ def normalise(peaks: tuple[Peak, ...], hydrogens: int, max_missing: int,
     scaled so that they sum to the formula's hydrogens, or to fewer when up to
     ``max_missing`` exchangeable H may be unobserved; every peak holds at least
     one H (the rounding tolerance and how many readings are kept are in
-    ``rules/observe.tsv``); the rounding of a broad peak (``br``) is not held against a reading.  The plausible choices are returned best first (smallest rounding
-    residual, fewest missing H), so that the matching can decide between them.
+    ``rules/observe.tsv``); the rounding of a broad peak (``br``) is not held against a reading.
+    The plausible choices are returned best first (smallest rounding residual, fewest missing H),
+    so that the matching can decide between them.
 
     Raises
     ------
