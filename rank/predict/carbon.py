@@ -225,14 +225,17 @@ class _Arithmetic:
         _, value, feature, refitted, keys = entry
         if value is None:
             return
+        values, features, handbook, total = self.values, self.features, self.handbook, self.values.get(name, 0.0)
         for _ in range(repeat):
-            self.handbook += value * times
-            self.features[feature] += times
-            self.values[name] = self.values.get(name, 0.0) + refitted * times
+            handbook += value * times
+            features[feature] += times
+            total += refitted * times
+        self.handbook, values[name] = handbook, total
         self.counts[name] += repeat
+        rows = self.rows
         for key in keys:
-            if key not in self.rows:
-                self.rows.append(key)
+            if key not in rows:
+                rows.append(key)
 
     def terms(self) -> tuple[Term, ...]:
         out = []
@@ -323,11 +326,15 @@ class _Molecule:
         found = self._classified.get(name)
         if found is None:
             found = {}
-            screen = _tables().screen
+            screen, features, elements = _tables().screen, self.features, self.elements
+            needs, present = screen.needs, features.present
             for r in rows:
-                if not self._may_match(r):
+                if r.query is None or not r.elements <= elements:
                     continue
-                matches = screen.matches(r.query, self.features)
+                need = needs[id(r.query)]
+                if present & need != need:
+                    continue
+                matches = screen.matches(r.query, features)
                 if matches is None:
                     matches = self.mol.GetSubstructMatches(r.query, uniquify=False, maxMatches=_MAX_MATCHES)
                 for match in matches:
