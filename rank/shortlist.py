@@ -181,6 +181,16 @@ class Shortlist:
     structures); ``built / estimated`` is about the share of the space searched."""
 
     @property
+    def searched_text(self) -> str:
+        """The share searched as the user reads it, e.g. ``0.05% of about 22,717,734 structures``; "" without
+        an estimate."""
+        share = self.coverage
+        if share is None:
+            return ""
+        shown = f"{share:.0%}" if share >= 0.1 or share == 0 else f"{100 * share:.2g}%"
+        return f"{shown} of about {self.estimated:,.0f} structures"
+
+    @property
     def coverage(self) -> float | None:
         """About what share of the generated space was searched (1 when complete); None without an estimate."""
         if self.complete:
@@ -835,7 +845,7 @@ def _progress_line(done: int, units: int, result: Shortlist, seconds: float) -> 
     line = f"peakrank: {done}/{units} work units, {result.explored:,} candidates scored"
     if result.estimated:
         share = min(1.0, result.built / result.estimated)
-        line += f", {share:.0%} of about {result.estimated:,.0f} structures searched"
+        line += f", {result.searched_text} searched"
         if 0 < share < 1 and seconds > 1:
             line += f", about {_duration(seconds * (1 - share) / share)} left"
     return f"{line}, {seconds:.0f} s   "

@@ -269,8 +269,7 @@ def terminal_text(result: Shortlist, detail: int = 1) -> str:
         lines.append(result.candidates_file_note())
     state = "complete" if result.complete else "INCOMPLETE (budget spent: the truth may be missing)"
     if not result.complete and result.coverage is not None:
-        state += (f"; about {result.coverage:.0%} of the estimated {result.estimated:,.0f} structures searched, "
-                  "the likeliest hydrogen distributions first")
+        state += f"; {result.searched_text} searched, the likeliest first"
     lines.append(f"{result.explored:,} candidates scored; search {state}")
     lines.append("")
     if not result.candidates:
