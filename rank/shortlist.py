@@ -701,8 +701,9 @@ class Identifier:
             units, pruned = self._generated_units(result)
             if guesses:
                 first = self._generated_units(result, guesses)[0]
-                if sum(u.estimate for u in first) > _GUESSED_SHARE * (result.estimated or 0):
-                    first, result.guesses = [], ()  # the guesses narrow too little to be worth a first pass
+                guessed = sum(u.estimate for u in first)
+                if guessed > min(_GUESSED_SHARE * (result.estimated or 0), _GUESSED_MOST):
+                    first, result.guesses = [], ()  # too little narrowed for a first pass, or too much to remember
         else:
             units, pruned = self._listed_units(candidates, require, forbid, result), Counter()
         job = _Job(parsed, tuple(self.require), tuple(self.forbid), hints, limits, observation, self.settings,
@@ -1003,6 +1004,8 @@ class HydrogenProfile(NamedTuple):
 
 _GUESSED_SHARE = 0.5
 """The guesses' space is searched first only when it is at most this share of the whole (estimated)."""
+_GUESSED_MOST = 200_000
+"""... and at most this many structures (estimated): each process keeps their SMILES, about 150 bytes each."""
 
 _AROMATIC_FROM = 6.5
 """ppm: sharp H above this sit on CH carbons (aromatic, alkene, imine and aldehyde H; common practice)."""
