@@ -82,6 +82,17 @@ class Kind:
     def _pattern(self) -> Chem.Mol | None:
         return Chem.MolFromSmarts(self.smarts) if self.smarts else None
 
+    @cached_property
+    def _one_query(self) -> Chem.Mol | None:
+        """The whole kind as one one-atom query, when it has a SMARTS and no bond or environment condition:
+        its element, H counts and the SMARTS together (``[$(smarts);#6;H1,H2]``)."""
+        if self.smarts is None or self.double_bond is not None or self.triple_bond is not None or self.environments:
+            return None
+        parts = [f"$({self.smarts})", f"#{Chem.GetPeriodicTable().GetAtomicNumber(self.element)}"]
+        if self.hydrogens is not None:
+            parts.append(",".join(f"H{h}" for h in self.hydrogens))
+        return Chem.MolFromSmarts(f"[{';'.join(parts)}]")
+
     def _atom_type(self, t: AtomType) -> bool:
         return t.state.element == self.element and (self.hydrogens is None or t.hydrogens in self.hydrogens)
 
@@ -131,6 +142,8 @@ class Kind:
         -------
         int
         """
+        if self._one_query is not None:
+            return len(mol.GetSubstructMatches(self._one_query, uniquify=True, maxMatches=10_000))
         matched = None
         bonds_of = mol
         if (self.double_bond is not None or self.triple_bond is not None) and any(
@@ -141,7 +154,8 @@ class Kind:
         if self._pattern is not None:
             matched = {m[0] for m in mol.GetSubstructMatches(self._pattern, uniquify=True, maxMatches=10_000)}
         atoms = []
-        for a in mol.GetAtoms():
+        for i in range(mol.GetNumAtoms()):  # by index: RDKit's atom sequence iterates slowly
+            a = mol.GetAtomWithIdx(i)
             if a.GetSymbol() != self.element:
                 continue
             if self.hydrogens is not None and a.GetTotalNumHs() not in self.hydrogens:
