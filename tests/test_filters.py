@@ -36,6 +36,14 @@ EXAMPLES: dict[str, tuple[list[str], list[str]]] = {
         ["c1ccoccoc1"],  # 1,4-dioxocin drawn aromatic (ten pi electrons)
         ["Oc1ccccc1O"],  # catechol, the same formula
     ),
+    "aromatic_oxygen_seven_ring": (
+        ["c1ccoooc1"],  # a trioxepin drawn aromatic
+        ["c1ccoc1"],  # furan
+    ),
+    "aromatic_peroxide": (
+        ["Cc1cooc1=O", "O=c1ccoo1"],  # 1,2-dioxol-3-ones drawn aromatic
+        ["O=c1occo1"],  # vinylene carbonate (1,3-dioxol-2-one): the oxygens are apart
+    ),
     "three_ring_aromatic": (
         ["c1ccc2c(c1)C2"],  # cyclopropabenzene
         ["c1ccc2c(c1)CC2"],  # benzocyclobutene
