@@ -86,19 +86,22 @@ class Hint:
                         else t.state.element == "C" and t.hydrogens == self.hydrogens) for t, c in types)
         return have >= self.min_atoms
 
-    def fits(self, formula: Formula) -> bool:
+    def fits(self, formula: Formula, any_dbe: bool = False) -> bool:
         """Whether the formula can hold the hint's groups (``copies`` of one variant) within ``max_dbe``.
 
         Parameters
         ----------
         formula : Formula
+        any_dbe : bool, default False
+            Leave ``max_dbe`` out (a guess, not a claim: more rings and double bonds only make other
+            readings of the peaks possible).
 
         Returns
         -------
         bool
             False when the formula's DBE passes ``max_dbe`` or no variant fits ``copies`` times.
         """
-        if self.max_dbe is not None and formula.dbe > self.max_dbe:
+        if self.max_dbe is not None and formula.dbe > self.max_dbe and not any_dbe:
             return False
         return not self.fragments or any(
             formula.minus({el: self.copies * n for el, n in Fragment(s).formula_counts().items()}) is not None
@@ -248,8 +251,9 @@ def read_hints(peaks: Sequence[Peak], counts: Sequence[int], formula: Formula | 
     formula : when given, a group hint claims no more copies than the formula can hold,
         and one whose group does not fit at all (or whose DBE limit the formula passes)
         is left out.
-    relaxed : read peaks without a reported multiplicity as if they had the one a rule asks for:
-        guesses, not claims, that a budgeted run searches first (``rank.shortlist``).
+    relaxed : read peaks without a reported multiplicity as if they had the one a rule asks for, and
+        leave the rules' DBE limits out: guesses, not claims, that a budgeted run searches first
+        (``rank.shortlist``).
 
     Returns
     -------
@@ -264,9 +268,9 @@ def read_hints(peaks: Sequence[Peak], counts: Sequence[int], formula: Formula | 
         hint = _apply(rule, peaks, counts, claimed, relaxed)
         if hint is None:
             continue
-        while formula is not None and hint.copies > 1 and not hint.fits(formula):
+        while formula is not None and hint.copies > 1 and not hint.fits(formula, relaxed):
             hint = replace(hint, copies=hint.copies - 1)
-        if formula is not None and not hint.fits(formula):
+        if formula is not None and not hint.fits(formula, relaxed):
             continue
         if hint.fragments:
             # a peak is evidence for one group only: two group hints on the same peaks would

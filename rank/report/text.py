@@ -259,8 +259,8 @@ def terminal_text(result: Shortlist, detail: int = 1) -> str:
         lines.append(f"limit: {lim.claim} ({lim.evidence}{tolerance}); removed about {removed:,} structures "
                      "(--no-hints turns limits off)")
     for h in result.guesses:
-        lines.append(f"searched first: {h.claim} from {h.evidence}, as if the multiplicities had been reported "
-                     "(a guess: the rest of the space is searched after it)")
+        lines.append(f"searched first: {h.claim} from {h.evidence} (a guess the list does not prove: the rest "
+                     "of the space is searched after it)")
     if result.skipped_inputs:
         lines.append(f"candidates file: {result.skipped_inputs} unreadable lines skipped")
     if result.other_formula:
