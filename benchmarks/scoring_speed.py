@@ -17,24 +17,37 @@ difference, naming the first ones.
 ``--profile`` runs cProfile over the scoring and prints the heaviest entries, cumulative and own time.
 
 Where the time goes (microseconds per candidate, timed stage by stage outside cProfile on 4 x 1,000
-candidates; the shared machine's speed varies by about 30 %, so compare columns measured side by side):
+candidates; the shared machine's speed varies by about 30 %, so compare columns measured side by side;
+the last column re-measures the code of the second one and today's code side by side, best of two
+rounds of three passes, so its own "before" differs from the second column's figures):
 
-    stage                                          before   after (issue 13, first steps)
-    RDKit molecule from SMILES                      120       109
-    1H perception (perceive.py: graph, classes)     222       213
-    1H shifts (SMARTS table rows, arithmetic)       318       303   (row matching ~60 % of it)
-    1H multiplets and signals                       ~0-20     ~0-20
-    13C prediction                                 1616      1030
+    stage                                          before   after (issue 13,   side by side: first steps
+                                                            first steps)       -> screen, memos
+    RDKit molecule from SMILES                      120       109                50 ->  46
+    1H perception (perceive.py: graph, classes)     222       213               161 -> 149
+    1H shifts (SMARTS table rows, arithmetic)       318       303               197 -> 128
+    1H multiplets and signals                       ~0-20     ~0-20              42 ->  33
+    13C prediction                                 1616      1030               974 -> 746
       of which: sp3 arithmetic ~500 (SMARTS rows of carbon_sp3_substituent ~115), environment
       codes ~200 before (each atom re-described for every code), _Molecule and ranks ~100
-    1H assignment (match, Hungarian), 1 normalisation 190       176
-    13C assignment (match_carbons)                   70        66
+    1H assignment (match, Hungarian), 1 normalisation 190       176                60 ->  33
+    13C assignment (match_carbons)                   70        66                30 ->  29
 
-cProfile, own time, heaviest (after): shifts._first_matches (RDKit substructure search of the 1H table
-rows), shortlist.score (includes RDKit MolFromSmiles), NamedTuple/dataclass construction,
-perceive._graph, carbon _Arithmetic.add and _sp3, EnvironmentGraph.codes, round(), carbon classify
-(RDKit substructure search of the 13C rows), match._cost_matrix.  Throughput, best of 4 CPU-time passes
-of 4 x 500 candidates side by side: 1H only about 1,650/s before and after; 1H+13C 431 -> 605/s.
+The screen (``rank.predict.screen``) skips every table row whose pattern needs a bond the molecule
+lacks (of the 1H rows whose elements a molecule has, about 30 % are still searched, nearly all of them
+matching, except the heteroaromatic parents, whose recursive SMARTS are not screened) and matches
+one-atom and one-bond rows from the atom and bond descriptions; the matcher keeps each signal's costs
+and each signal list's match per peak list (5 to 60 % of the candidates of these formulas repeat an
+earlier candidate's 1H signal list exactly).  The
+RDKit work left per candidate (SMILES parsing, reading atoms and bonds, ring information, hydrogens added
+for the canonical ranks, the remaining substructure searches) is about 150 microseconds of the 1H total.
+
+cProfile, own time, heaviest (after): NamedTuple construction (Term, Site, Partner, Pairing),
+perceive._graph (RDKit reads), shortlist.score (includes RDKit MolFromSmiles), carbon _Arithmetic.add
+and _sp3, Screen.features, EnvironmentGraph.codes, shifts._first_matches, round(), carbon terms.
+Throughput, best of 3 rounds of 2 CPU-time passes of 4 x 2,000 candidates side by side (the code of
+the first steps against today's): 1H only 1,564 -> 2,080/s; 1H+13C 553 -> 691/s.  The cyclic garbage
+collector costs about 15-20 % of a run (scoring with it disabled is that much faster).
 
 Usage: python benchmarks/scoring_speed.py [--count N] [--cases ID,...] [--save FILE] [--check FILE]
        [--profile] [--only 1h|13c] [--repeat N]
