@@ -332,6 +332,7 @@ def _memo(peaks: tuple[Peak, ...], settings: Settings) -> _Memo:
 
 
 def _remember(table: dict, key: tuple, value):
+    """Keep ``value`` under ``key``, emptying the table first when it is full; return ``value``."""
     if len(table) >= _MEMO_SIZE:
         table.clear()
     table[key] = value
@@ -478,7 +479,9 @@ def match(signals: Sequence[Signal], peaks: tuple[Peak, ...], counts: tuple[int,
     -----
     One row per predicted proton, one column per observed proton or allowed absence; the
     cheapest one-to-one assignment is found by the Hungarian algorithm (scipy's
-    ``linear_sum_assignment``), then scored (module docstring).
+    ``linear_sum_assignment``), then scored (module docstring).  The result is a pure function of
+    what it reads, so a signal list already matched against the same peak list (the same object) and
+    settings is answered from a bounded memo, as is each signal's row of costs.
 
     References
     ----------
