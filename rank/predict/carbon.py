@@ -772,6 +772,8 @@ def _symbol(z: int) -> str:
 
 def _heavy(mol: Chem.Mol) -> tuple[Chem.Mol, list[int]]:
     """The molecule without explicit H atoms, and each remaining atom's index in ``mol``."""
+    if mol.GetNumAtoms() == mol.GetNumHeavyAtoms():   # no H atoms (nor dummies): nothing to set aside
+        return mol, list(range(mol.GetNumAtoms()))
     kept = [a.GetIdx() for a in mol.GetAtoms() if a.GetAtomicNum() != 1]
     if len(kept) == mol.GetNumAtoms():
         return mol, kept
