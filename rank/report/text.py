@@ -269,7 +269,8 @@ def terminal_text(result: Shortlist, detail: int = 1) -> str:
         lines.append(result.candidates_file_note())
     state = "complete" if result.complete else "INCOMPLETE (budget spent: the truth may be missing)"
     if not result.complete and result.coverage is not None:
-        state += f"; {result.searched_text} searched, the likeliest first"
+        state += (f"; {result.searched_text} searched, the likeliest first; each confidence is among the "
+                  "candidates scored only")
     lines.append(f"{result.explored:,} candidates scored; search {state}")
     lines.append("")
     if not result.candidates:
