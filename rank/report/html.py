@@ -399,6 +399,9 @@ def report_html(result: Shortlist, title: str | None = None, shown: int = 5, tra
         f"<td class='num'>{c.misfit:.3f}</td><td class='num'>{c.confidence:.1%}</td>"
         f"<td>{escape(c.reason)}</td></tr>" for c in result.candidates)
     state = "complete" if result.complete else "incomplete: the run stopped early and the truth may be missing"
+    if not result.complete and result.coverage is not None:
+        state += (f"; {result.searched_text} searched, the likeliest first; each confidence is among the "
+                  "candidates scored only")
     body = (
         f"<h1>{heading}</h1>"
         f"<p class='caution'><strong>Caution.</strong> {escape(CAUTION)}</p>"
