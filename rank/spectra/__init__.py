@@ -6,7 +6,7 @@ solvent signals, and turn integrals into H counts.
 ([4.12, 7.26], 'CDCl3')
 """
 
-from .files import PeakSource, read_carbon_peaks, read_peak_source, read_peaks
+from .files import read_carbon_peaks, read_peak_source, read_peaks
 from .integrals import Normalisation, exchangeable_bound, normalise, with_counts
 from .peaks import (
     CARBON_SHIFT_RANGE,
@@ -17,6 +17,7 @@ from .peaks import (
     CarbonSpectrum,
     Dropped,
     Peak,
+    PeakSource,
     Spectrum,
     coupling_groups,
     format_carbon_peaks,

@@ -11,16 +11,15 @@ import json
 import math
 import re
 import warnings
-from dataclasses import dataclass
 from pathlib import Path
 
 from ..errors import InputError
-from .peaks import DASH, NUMBER, CarbonSpectrum, Dropped, Peak, Spectrum, make_peak, number
+from .peaks import DASH, NUMBER, CarbonSpectrum, Peak, PeakSource, Spectrum, make_peak, number
 from .solvents import find_solvent
 from .text import carbon_peaks, parse_carbon_text, parse_peak_text
 from .trace import Trace, is_spectrum_source, read_trace
 
-__all__ = ["PeakSource", "read_carbon_peaks", "read_peak_source", "read_peaks"]
+__all__ = ["read_carbon_peaks", "read_peak_source", "read_peaks"]
 
 
 def _peak_from_fields(shift: str, integral: object, mult: object, j: object, counts_h: bool = False,
@@ -357,25 +356,6 @@ def read_carbon_peaks(source: str, solvent: str | None = None, dept135: str | No
 # ------------------------------------------------------------ spectrum files ----
 
 
-@dataclass(frozen=True, eq=False)
-class PeakSource:
-    """A peak list with what reading it involved.
-
-    Attributes
-    ----------
-    spectrum : the peaks read or picked (a :class:`Spectrum`, or a :class:`CarbonSpectrum` for 13C).
-    dropped : peaks picked from a trace and left out, with the reason (solvent, water, TMS, 13C
-        satellites, spinning sidebands); empty for a typed list, whose solvent peaks are dropped later.
-    notes : how the list was obtained from a trace (referencing, picking), one sentence each.
-    trace : the spectrum picked from, re-referenced; None for a typed list.
-    """
-
-    spectrum: Spectrum | CarbonSpectrum
-    dropped: tuple[Dropped, ...] = ()
-    notes: tuple[str, ...] = ()
-    trace: Trace | None = None
-
-
 def read_peak_source(source: str, nucleus: str | None = "1H", solvent: str | None = None,
                      dept135: str | None = None) -> PeakSource:
     """Read a 1H or 13C peak list from inline text, a peak file or a spectrum file.
@@ -424,7 +404,7 @@ def read_peak_source(source: str, nucleus: str | None = "1H", solvent: str | Non
         raise InputError(f"{trace.source} is a {trace.nucleus} spectrum; peak lists are read for 1H or 13C")
     if not picked.spectrum.peaks:
         raise InputError(f"no peak picked in {trace.source}; check the file or give a peak list")
-    return PeakSource(picked.spectrum, tuple(picked.dropped), tuple(picked.notes), picked.trace)
+    return picked
 
 
 def _dept135_trace(source: str) -> Trace:

@@ -14,9 +14,13 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 from functools import cache
+from typing import TYPE_CHECKING
 
 from ..errors import InputError
 from ..tables import read_table
+
+if TYPE_CHECKING:
+    from .trace import Trace
 
 __all__ = [
     "CARBON_SHIFT_RANGE",
@@ -30,6 +34,7 @@ __all__ = [
     "CarbonSpectrum",
     "Dropped",
     "Peak",
+    "PeakSource",
     "Spectrum",
     "coupling_groups",
     "format_carbon_peaks",
@@ -181,6 +186,25 @@ class Dropped:
     peak: Peak | CarbonPeak
     reason: str
 
+
+
+@dataclass(frozen=True, eq=False)
+class PeakSource:
+    """A peak list with what reading it involved.
+
+    Attributes
+    ----------
+    spectrum : the peaks read or picked (a :class:`Spectrum`, or a :class:`CarbonSpectrum` for 13C).
+    dropped : peaks picked from a trace and left out, with the reason (solvent, water, TMS, 13C
+        satellites, spinning sidebands); empty for a typed list, whose solvent peaks are dropped later.
+    notes : how the list was obtained from a trace (referencing, picking), one sentence each.
+    trace : the spectrum picked from, re-referenced; None for a typed list.
+    """
+
+    spectrum: Spectrum | CarbonSpectrum
+    dropped: tuple[Dropped, ...] = ()
+    notes: tuple[str, ...] = ()
+    trace: Trace | None = None
 
 
 def normalise_multiplicity(text: str) -> str:

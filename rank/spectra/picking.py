@@ -42,6 +42,7 @@ from .peaks import (
     CarbonSpectrum,
     Dropped,
     Peak,
+    PeakSource,
     Spectrum,
     coupling_groups,
     make_carbon_peak,
@@ -51,7 +52,7 @@ from .peaks import (
 from .solvents import DEFAULT_SOLVENT, Solvent, find_solvent
 from .trace import Trace
 
-__all__ = ["Picked", "PickedCarbon", "PickingSettings", "first_order", "pick_carbon", "pick_proton", "picking_settings"]
+__all__ = ["PickingSettings", "first_order", "pick_carbon", "pick_proton", "picking_settings"]
 
 
 @dataclass(frozen=True)
@@ -129,34 +130,6 @@ def picking_settings() -> PickingSettings:
 
 
 NOT_TMS = "line near 0 that disagrees with the solvent reference: silicone grease or another Si-CH3 impurity"
-
-
-@dataclass(frozen=True)
-class Picked:
-    """A 1H peak list picked from a trace.
-
-    Attributes
-    ----------
-    spectrum : the compound's signals (relative integrals, the smallest kept signal 1).
-    dropped : solvent, water, TMS, 13C satellites, spinning sidebands and minor signals, each with its reason.
-    notes : how the axis was referenced, the noise level, anything a chemist should check.
-    trace : the trace on the corrected axis.
-    """
-
-    spectrum: Spectrum
-    dropped: tuple[Dropped, ...]
-    notes: tuple[str, ...]
-    trace: Trace
-
-
-@dataclass(frozen=True)
-class PickedCarbon:
-    """A 13C peak list picked from a trace (with DEPT-135 types when given); fields as :class:`Picked`."""
-
-    spectrum: CarbonSpectrum
-    dropped: tuple[Dropped, ...]
-    notes: tuple[str, ...]
-    trace: Trace
 
 
 # ---------------------------------------------------------------- baseline, noise and lines
@@ -632,7 +605,7 @@ def _reference_lines(lines: list[_Line], solvent: Solvent | None, broad_hz: floa
     return [ln for ln in lines if id(ln) not in gone], taken
 
 
-def pick_proton(trace: Trace, solvent: str | None = None, settings: PickingSettings | None = None) -> Picked:
+def pick_proton(trace: Trace, solvent: str | None = None, settings: PickingSettings | None = None) -> PeakSource:
     """The 1H peak list of a processed trace.
 
     Parameters
@@ -646,7 +619,7 @@ def pick_proton(trace: Trace, solvent: str | None = None, settings: PickingSetti
 
     Returns
     -------
-    Picked
+    PeakSource
         The signals with relative integrals (the smallest kept signal 1), multiplicity and J; what was dropped
         and why; notes on referencing and noise; the trace on the corrected axis.
 
@@ -689,7 +662,7 @@ def pick_proton(trace: Trace, solvent: str | None = None, settings: PickingSetti
     if len(inside) < len(lines):
         notes.append(f"{len(lines) - len(inside)} line(s) outside -1 to 16 ppm ignored")
     spectrum = Spectrum(peaks, freq, chosen.id if chosen else None, "1H")
-    return Picked(spectrum, tuple(dropped), tuple(notes), _shifted(trace, correction))
+    return PeakSource(spectrum, tuple(dropped), tuple(notes), _shifted(trace, correction))
 
 
 def _in_range(ppm: float) -> bool:
@@ -771,7 +744,7 @@ def _peak(sig: _Signal, unit: float) -> Peak:
 
 
 def pick_carbon(trace: Trace, solvent: str | None = None, dept135: Trace | None = None,
-                settings: PickingSettings | None = None) -> PickedCarbon:
+                settings: PickingSettings | None = None) -> PeakSource:
     """The 13C line list of a processed proton-decoupled trace, typed by a DEPT-135 trace when given.
 
     Parameters
@@ -788,7 +761,7 @@ def pick_carbon(trace: Trace, solvent: str | None = None, dept135: Trace | None 
 
     Returns
     -------
-    PickedCarbon
+    PeakSource
         One line per peak; ``n_h`` from the DEPT-135: 2 for a down line, 0 for a line absent from it, and for
         an up line 1 or 3 only where the shift decides it (``dept_ch_above``, ``dept_ch3_below``), else None.
 
@@ -831,7 +804,7 @@ def pick_carbon(trace: Trace, solvent: str | None = None, dept135: Trace | None 
     peaks = tuple(make_carbon_peak(round(ln.ppm, 2), n_h) for ln, n_h in
                   sorted(zip(kept, types), key=lambda pair: -pair[0].ppm))
     spectrum = CarbonSpectrum(peaks, freq, chosen.id if chosen else None)
-    return PickedCarbon(spectrum, tuple(dropped), tuple(notes), _shifted(trace, correction))
+    return PeakSource(spectrum, tuple(dropped), tuple(notes), _shifted(trace, correction))
 
 
 def _merged(lines: list[_Line], freq: float, within_hz: float) -> list[_Line]:
