@@ -845,7 +845,7 @@ def _progress_line(done: int, units: int, result: Shortlist, seconds: float) -> 
     """Work units done, candidates scored of the estimated space, time so far and an estimate of the time left."""
     line = f"peakrank: {done}/{units} work units, {result.explored:,} candidates scored"
     if result.estimated:
-        share = min(1.0, result.built / result.estimated)
+        share = result.coverage  # the run is not complete yet: the share built
         line += f", {result.searched_text} searched"
         if 0 < share < 1 and seconds > 1:
             line += f", about {_duration(seconds * (1 - share) / share)} left"
